@@ -1,0 +1,182 @@
+"""The public Python API: one function per verb, each writing its files into an output folder.
+
+The CLI only parses arguments and calls these.  Data flows one way:
+files -> model (:mod:`sdmnet.loaders`) -> engine (:mod:`sdmnet.engine`, run by
+:mod:`sdmnet.sweep`) -> statistics (:mod:`sdmnet.stats`) -> tables (:mod:`sdmnet.tables`)
+-> figures and report.
+"""
+
+from __future__ import annotations
+
+import platform
+import sys
+import time
+from dataclasses import asdict, dataclass
+from importlib import metadata
+from pathlib import Path
+
+import pandas as pd
+
+from . import __version__
+from .engine import EngineSetup, ReplicationRecord, prepare
+from .errors import InputError
+from .figures import blocking_figure
+from .model import Scenario
+from .resources import InstalledResources, installed_resources
+from .stats import PointSummary, summarize_point
+from .sweep import Progress, TaskStore, plan_tasks, run_sweep, scenario_fingerprint
+from .tables import cable_table, class_table, pair_table, site_table, summary_table, write_json, write_table
+
+__all__ = ["SimulationResult", "simulate", "summarize_records", "software_versions", "ensure_out_dir"]
+
+
+@dataclass
+class SimulationResult:
+    """What :func:`simulate` produced (the same tables it wrote)."""
+
+    out_dir: Path
+    summary: pd.DataFrame
+    classes: pd.DataFrame
+    pairs: pd.DataFrame
+    sites: pd.DataFrame
+    cables: pd.DataFrame
+    points: list[PointSummary]
+    wall_time_s: float
+
+
+def software_versions() -> dict[str, str]:
+    """Versions of Python and of the libraries that shape the results."""
+    out = {"python": platform.python_version(), "sdmnet": __version__}
+    for name in ("numpy", "scipy", "simpy", "networkx", "pandas", "matplotlib"):
+        try:
+            out[name] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            out[name] = "not installed"
+    return out
+
+
+def ensure_out_dir(out_dir: Path | str) -> Path:
+    """Create ``out_dir`` (and parents) and check it is writable; InputError otherwise."""
+    path = Path(out_dir)
+    try:
+        path.mkdir(parents=True, exist_ok=True)
+        probe = path / ".write-probe"
+        probe.write_text("")
+        probe.unlink()
+    except OSError as exc:
+        raise InputError(path, "--out", f"cannot write the output folder ({exc.strerror or exc})") from None
+    return path
+
+
+def summarize_records(
+    scenario: Scenario, records: dict[str, ReplicationRecord]
+) -> tuple[list[PointSummary], dict[str, EngineSetup], dict[str, InstalledResources]]:
+    """Aggregate records by (architecture, load) in scenario order, with setups and resources."""
+    setups = {a.name: prepare(scenario, a) for a in scenario.architectures}
+    resources = {a.name: installed_resources(scenario, a) for a in scenario.architectures}
+    grouped: dict[tuple[int, int], list[ReplicationRecord]] = {}
+    for task in plan_tasks(scenario):
+        if task.key in records:
+            grouped.setdefault((task.arch_index, task.load_index), []).append(records[task.key])
+    points = [summarize_point(grouped[k], scenario.run.confidence) for k in sorted(grouped)]
+    return points, setups, resources
+
+
+def simulate(
+    scenario: Scenario,
+    out_dir: Path | str,
+    *,
+    jobs: int = 1,
+    scheduler: str | None = None,
+    resume: bool = False,
+    progress: bool = True,
+    figures: bool = True,
+) -> SimulationResult:
+    """Simulate every architecture at every load point and write the results.
+
+    Files written into ``out_dir``: ``summary.csv``, ``classes.csv`` (per size class),
+    ``pairs.csv`` (per datacenter pair), ``sites.csv`` (transceivers and ports per site),
+    ``cables.csv`` (utilisation), ``run.json`` (inputs, seeds, versions, wall time),
+    ``blocking.png`` and ``bandwidth_blocking.png``, and ``tasks/`` (one file per finished
+    replication, used by ``resume``).
+
+    Parameters
+    ----------
+    scenario : Scenario
+        From :func:`sdmnet.loaders.load_scenario`.
+    out_dir : path
+        Output folder (created).
+    jobs : int
+        Local worker processes.
+    scheduler : str, optional
+        Dask scheduler address; the sweep runs there instead.
+    resume : bool
+        Keep finished tasks already in ``out_dir/tasks`` and run only the missing ones.
+    progress : bool
+        Report progress on stderr for runs longer than a few seconds.
+    figures : bool
+        Draw the figures.
+
+    Raises
+    ------
+    InputError
+        Bad input or an unwritable folder.
+    RunInterrupted
+        SIGINT/SIGTERM; finished tasks are on disk.
+    """
+    started = time.perf_counter()
+    out = ensure_out_dir(out_dir)
+    # Refuse an impossible architecture before any work starts.
+    setups = {a.name: prepare(scenario, a) for a in scenario.architectures}
+    tasks = plan_tasks(scenario)
+    store = TaskStore(out / "tasks", scenario_fingerprint(scenario))
+    bar = Progress(len(tasks), "simulate") if progress else None
+    records = run_sweep(scenario, store, tasks=tasks, jobs=jobs, scheduler=scheduler, resume=resume, progress=bar)
+    points, setups, resources = summarize_records(scenario, records)
+    summary = summary_table(scenario, points, setups, resources)
+    classes = class_table(points, setups)
+    pairs = pair_table(points, setups)
+    sites = site_table(scenario, points, setups, resources)
+    cables = cable_table(scenario, points)
+    for name, frame in (
+        ("summary", summary),
+        ("classes", classes),
+        ("pairs", pairs),
+        ("sites", sites),
+        ("cables", cables),
+    ):
+        write_table(frame, out / f"{name}.csv")
+    if figures:
+        blocking_figure(summary, out / "blocking.png")
+        blocking_figure(summary, out / "bandwidth_blocking.png", column="bandwidth_blocking",
+                        title="Bandwidth blocking vs offered load (95 % intervals)")
+    wall = time.perf_counter() - started
+    write_json(run_manifest(scenario, "simulate", wall, jobs=jobs, scheduler=scheduler), out / "run.json")
+    return SimulationResult(out, summary, classes, pairs, sites, cables, points, wall)
+
+
+def run_manifest(scenario: Scenario, verb: str, wall_time_s: float, **options: object) -> dict:
+    """Inputs, seeds, versions and wall time of a run, for run.json."""
+    unrouted = {}
+    for arch in scenario.architectures:
+        setup = prepare(scenario, arch)
+        if setup.unrouted_pairs:
+            unrouted[arch.name] = ["-".join(p) for p in setup.unrouted_pairs]
+    return {
+        "verb": verb,
+        "scenario_file": str(scenario.source) if scenario.source else None,
+        "topology_file": str(scenario.topology.source) if scenario.topology.source else None,
+        "scenario": asdict(scenario),
+        "fingerprint": scenario_fingerprint(scenario),
+        "seeds": {
+            "scenario_seed": scenario.seed,
+            "rule": "replication r uses numpy SeedSequence(scenario_seed, spawn_key=(r,)), spawned into "
+            "4 streams (interarrival, pair, size, holding); the same for every architecture and load",
+            "replications": scenario.run.replications,
+        },
+        "pairs_without_feasible_route": unrouted,
+        "options": options,
+        "versions": software_versions(),
+        "command": sys.argv,
+        "wall_time_s": round(wall_time_s, 3),
+    }

@@ -1,0 +1,173 @@
+"""Command line: ``sdmnet VERB ...``.  Parses arguments and calls :mod:`sdmnet.api`; nothing else.
+
+Exit status: 0 done; 2 bad input (one line ``error: FILE: WHERE: what is wrong``);
+130 interrupted (finished results are on disk).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Callable, Sequence
+from pathlib import Path
+
+from . import __version__
+from .errors import InputError, RunInterrupted
+
+__all__ = ["main", "build_parser"]
+
+EXIT_OK, EXIT_INPUT, EXIT_INTERRUPTED = 0, 2, 130
+REPO_ROOT = Path(__file__).resolve().parent.parent
+DEMO_SCENARIO = REPO_ROOT / "scenarios" / "demo.toml"
+
+
+def _positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"not a whole number: {text!r}") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"must be at least 1, got {value}")
+    return value
+
+
+def _int(text: str) -> int:
+    try:
+        return int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"not a whole number: {text!r}") from None
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with our one-line error format and exit status 2."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        sys.stderr.write(f"error: <command line>: {self.prog}: {message}\n")
+        raise SystemExit(EXIT_INPUT)
+
+
+def _default_out(verb: str, source: str | None) -> Path:
+    stem = Path(source).stem if source else verb
+    return Path("results") / f"{stem}-{verb}"
+
+
+def _load_scenario(args: argparse.Namespace):
+    from .loaders import load_scenario
+
+    overrides = {}
+    if getattr(args, "seed", None) is not None:
+        overrides["seed"] = args.seed
+    if getattr(args, "requests", None) is not None:
+        overrides["run.requests"] = args.requests
+    if getattr(args, "replications", None) is not None:
+        overrides["run.replications"] = args.replications
+    return load_scenario(Path(args.scenario), overrides=overrides or None)
+
+
+def _out(args: argparse.Namespace, verb: str) -> Path:
+    return Path(args.out) if args.out else _default_out(verb, getattr(args, "scenario", None))
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    from .describe import describe
+    from .loaders import load_any
+
+    print(describe(load_any(Path(args.file))))
+    return EXIT_OK
+
+
+def cmd_simulate(args: argparse.Namespace) -> int:
+    from . import api
+
+    scenario = _load_scenario(args)
+    result = api.simulate(
+        scenario,
+        _out(args, "simulate"),
+        jobs=args.jobs,
+        scheduler=args.scheduler,
+        resume=args.resume,
+        progress=not args.quiet,
+    )
+    _print_summary(result.summary)
+    print(f"results in {result.out_dir}/ ({result.wall_time_s:.1f} s)")
+    return EXIT_OK
+
+
+def _print_summary(summary) -> None:
+    cols = ["architecture", "load_erlang", "blocking", "blocking_ci_low", "blocking_ci_high",
+            "transceivers_peak", "switch_ports", "fiber_pairs"]
+    print(summary[cols].to_string(index=False, float_format=lambda x: f"{x:.4g}"))
+
+
+def cmd_demo(args: argparse.Namespace) -> int:
+    from . import api
+    from .loaders import load_scenario
+
+    if not DEMO_SCENARIO.exists():
+        raise InputError(DEMO_SCENARIO, "demo", "the bundled demo scenario is missing from this installation")
+    scenario = load_scenario(DEMO_SCENARIO)
+    out = Path(args.out) if args.out else Path("results") / "demo"
+    result = api.simulate(scenario, out, jobs=args.jobs, progress=not args.quiet)
+    _print_summary(result.summary)
+    print(f"demo results in {result.out_dir}/ ({result.wall_time_s:.1f} s)")
+    return EXIT_OK
+
+
+def _add_out(p: argparse.ArgumentParser) -> None:
+    p.add_argument("-o", "--out", metavar="DIR", help="output folder (default: under results/)")
+
+
+def _add_run_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--seed", type=_int, help="override the scenario's seed")
+    p.add_argument("--requests", type=_positive_int, help="measured requests per replication")
+    p.add_argument("--replications", type=_positive_int, help="replications per point")
+    p.add_argument("--jobs", type=_positive_int, default=1, help="local worker processes (default 1)")
+    p.add_argument("--quiet", action="store_true", help="no progress on stderr")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of every verb."""
+    parser = _Parser(prog="sdmnet", description="Planning simulator for data-center interconnect on multicore fiber.")
+    parser.add_argument("--version", action="version", version=f"sdmnet {__version__}")
+    verbs = parser.add_subparsers(dest="verb", metavar="VERB", parser_class=_Parser)
+    verbs.required = True
+
+    p = verbs.add_parser("check", help="validate a topology or scenario and print what it holds")
+    p.add_argument("file", metavar="FILE")
+    _add_out(p)
+    p.set_defaults(func=cmd_check)
+
+    p = verbs.add_parser("simulate", help="simulate every architecture at every load point")
+    p.add_argument("scenario", metavar="SCENARIO")
+    _add_out(p)
+    _add_run_options(p)
+    p.add_argument("--scheduler", metavar="ADDRESS", help="run the sweep on a Dask scheduler (tcp://host:port)")
+    p.add_argument("--resume", action="store_true", help="keep finished tasks in the output folder, run the rest")
+    p.set_defaults(func=cmd_simulate)
+
+    p = verbs.add_parser("demo", help="run the bundled scenario end to end")
+    _add_out(p)
+    p.add_argument("--jobs", type=_positive_int, default=2, help="local worker processes (default 2)")
+    p.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    p.set_defaults(func=cmd_demo)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the ``sdmnet`` command; returns the exit status."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    func: Callable[[argparse.Namespace], int] = args.func
+    try:
+        return func(args)
+    except InputError as exc:
+        sys.stderr.write(f"error: {exc}\n")
+        return EXIT_INPUT
+    except (RunInterrupted, KeyboardInterrupt) as exc:
+        detail = str(exc) or "interrupted"
+        sys.stderr.write(f"interrupted: {detail}; finished tasks are kept (rerun with --resume)\n")
+        return EXIT_INTERRUPTED
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

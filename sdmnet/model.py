@@ -1,0 +1,402 @@
+"""Plain, typed data classes for everything sdmnet reads.
+
+The loaders (:mod:`sdmnet.loaders`) turn TOML / GraphML / CSV files into these objects and
+validate them; every later stage (routing, physics, engine, statistics, reports) reads them and
+never touches files.  All classes are frozen: a scenario is a value.
+
+Units follow the file contract: lengths in km, rates in Gb/s, loads in Erlang, times in the
+scenario's own holding-time unit, losses in dB.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Literal
+
+import networkx as nx
+
+from . import defaults
+
+__all__ = [
+    "COUPLINGS",
+    "ROLES",
+    "SWITCHINGS",
+    "PATTERNS",
+    "FiberType",
+    "Site",
+    "Cable",
+    "Topology",
+    "TrafficSpec",
+    "TransceiverSpec",
+    "RunSpec",
+    "Architecture",
+    "PlanSpec",
+    "ForecastSpec",
+    "Scenario",
+]
+
+Coupling = Literal["weak", "random"]
+Role = Literal["datacenter", "hub"]
+Switching = Literal["independent", "fractional-joint", "joint", "fiber"]
+Pattern = Literal["uniform", "gravity", "matrix"]
+
+COUPLINGS: tuple[str, ...] = ("weak", "random")
+ROLES: tuple[str, ...] = ("datacenter", "hub")
+SWITCHINGS: tuple[str, ...] = ("independent", "fractional-joint", "joint", "fiber")
+PATTERNS: tuple[str, ...] = ("uniform", "gravity", "matrix")
+
+
+@dataclass(frozen=True)
+class FiberType:
+    """A multicore fiber design.
+
+    Attributes
+    ----------
+    name : str
+        Key of the type in the topology file.
+    cores : int
+        Cores per fiber.
+    coupling : {"weak", "random"}
+        ``weak``: isolated cores, switchable one by one, crosstalk grows with length.
+        ``random``: cores mix within groups of ``coupled_group`` and must be received with
+        MIMO DSP and switched together.
+    coupled_group : int
+        Cores per randomly coupled group (1 for weak coupling); divides ``cores``.
+    channels : int
+        Spectral channels per core on a fixed grid.
+    attenuation_db_per_km : float
+        Fiber loss.
+    gd_spread_ps_per_sqrt_km : float or None
+        Random coupling: RMS group-delay spread coefficient; spread = coef * sqrt(L).
+    dgd_ps_per_km : float or None
+        Weak or deterministic coupling: differential group delay per km; spread = coef * L.
+    crosstalk_db_per_km : float or None
+        Weak coupling: inter-core crosstalk after 1 km, in dB (negative); after L km it is
+        ``crosstalk_db_per_km + 10 log10(L)``.
+    mdl_db_per_sqrt_km : float or None
+        Mode-dependent loss coefficient (random coupling); MDL = coef * sqrt(L).
+    """
+
+    name: str
+    cores: int
+    coupling: Coupling
+    coupled_group: int
+    channels: int
+    attenuation_db_per_km: float
+    gd_spread_ps_per_sqrt_km: float | None = None
+    dgd_ps_per_km: float | None = None
+    crosstalk_db_per_km: float | None = None
+    mdl_db_per_sqrt_km: float | None = None
+
+    @property
+    def coupled_groups(self) -> int:
+        """Number of coupled groups per fiber (``cores`` for weak coupling)."""
+        return self.cores // self.coupled_group
+
+
+@dataclass(frozen=True)
+class Site:
+    """A data-center campus (originates and terminates traffic) or a switching hub."""
+
+    id: str
+    role: Role
+    traffic_weight: float = 1.0
+    x_km: float | None = None
+    y_km: float | None = None
+
+
+@dataclass(frozen=True)
+class Cable:
+    """A cable between two sites holding ``fiber_pairs`` pairs of one fiber type."""
+
+    a: str
+    b: str
+    length_km: float
+    fiber_type: str
+    fiber_pairs: int
+
+    @property
+    def key(self) -> str:
+        """The cable's name in every table: ``a-b`` as written in the topology."""
+        return f"{self.a}-{self.b}"
+
+
+@dataclass(frozen=True)
+class Topology:
+    """Sites joined by cables, plus the fiber types the cables use.
+
+    At most one cable joins two sites (validated by the loader).
+    """
+
+    name: str
+    fiber_types: dict[str, FiberType]
+    sites: tuple[Site, ...]
+    cables: tuple[Cable, ...]
+    source: Path | None = None
+
+    def site(self, site_id: str) -> Site:
+        """The site with id ``site_id`` (KeyError if absent)."""
+        for site in self.sites:
+            if site.id == site_id:
+                return site
+        raise KeyError(site_id)
+
+    @property
+    def datacenters(self) -> tuple[Site, ...]:
+        """Sites that originate and terminate traffic, in file order."""
+        return tuple(s for s in self.sites if s.role == "datacenter")
+
+    def cable_index(self) -> dict[frozenset[str], int]:
+        """Map from the unordered site pair to the cable's index in ``cables``."""
+        return {frozenset((c.a, c.b)): i for i, c in enumerate(self.cables)}
+
+    def graph(self) -> nx.Graph:
+        """An undirected networkx graph: node per site, edge per cable.
+
+        Edge attributes: ``length_km``, ``cable`` (index into ``cables``), ``fiber_type``,
+        ``fiber_pairs``. Node attributes: the site's fields.
+        """
+        g = nx.Graph(name=self.name)
+        for s in self.sites:
+            g.add_node(s.id, role=s.role, traffic_weight=s.traffic_weight, x_km=s.x_km, y_km=s.y_km)
+        for i, c in enumerate(self.cables):
+            g.add_edge(
+                c.a, c.b, length_km=c.length_km, cable=i, fiber_type=c.fiber_type, fiber_pairs=c.fiber_pairs
+            )
+        return g
+
+    def with_fiber_pairs(self, pairs: dict[str, int]) -> Topology:
+        """A copy with the fiber pairs of the cables named in ``pairs`` (by ``Cable.key``) replaced."""
+        cables = tuple(replace(c, fiber_pairs=pairs.get(c.key, c.fiber_pairs)) for c in self.cables)
+        return replace(self, cables=cables)
+
+    def with_fiber_type(self, fiber_type: str) -> Topology:
+        """A copy in which every cable uses ``fiber_type`` (an architecture's override)."""
+        return replace(self, cables=tuple(replace(c, fiber_type=fiber_type) for c in self.cables))
+
+
+@dataclass(frozen=True)
+class TrafficSpec:
+    """Dynamic demand.
+
+    Attributes
+    ----------
+    pattern : {"uniform", "gravity", "matrix"}
+        How the total load spreads over datacenter pairs.
+    loads_erlang : tuple of float
+        Total offered load points (arrival rate x mean holding time).
+    mean_holding : float
+        Mean of the exponential holding time (sets the time unit).
+    sizes_gbps : tuple of (size, probability)
+        Discrete demand-size distribution, probabilities summing to 1, sizes ascending.
+    matrix : tuple of (a, b, weight) or None
+        For ``pattern = "matrix"``: relative weight of each unordered datacenter pair.
+    matrix_file : Path or None
+        Where the matrix came from (for reports).
+    """
+
+    pattern: Pattern
+    loads_erlang: tuple[float, ...]
+    mean_holding: float = 1.0
+    sizes_gbps: tuple[tuple[float, float], ...] = ((100.0, 1.0),)
+    matrix: tuple[tuple[str, str, float], ...] | None = None
+    matrix_file: Path | None = None
+
+    def scaled(self, factor: float) -> TrafficSpec:
+        """The same traffic with every load point multiplied by ``factor`` (growth)."""
+        return replace(self, loads_erlang=tuple(x * factor for x in self.loads_erlang))
+
+
+@dataclass(frozen=True)
+class TransceiverSpec:
+    """A coherent transceiver class: lane rate, DSP and the physical limits of a path.
+
+    Defaults and their sources live in :mod:`sdmnet.defaults`; what each figure does is in
+    :mod:`sdmnet.physics` and ``docs/physics.md``.
+
+    Attributes
+    ----------
+    lane_gbps : float
+        Net rate of one lane (one core x one channel).
+    symbol_rate_gbaud : float
+        Symbol rate per lane.
+    samples_per_symbol : float
+        Oversampling of the DSP (sets MIMO taps per unit of delay spread).
+    reach_km : float
+        Longest path the module is specified for.
+    power_budget_db : float
+        Loss the link budget allows between transmitter and receiver.
+    max_mimo_taps : int
+        Longest MIMO equalizer (taps, at the sample rate) the DSP supports.
+    crosstalk_limit_db : float
+        Highest accumulated inter-core crosstalk the modulation tolerates (dB, negative).
+    mdl_limit_db : float
+        Highest accumulated mode-dependent loss tolerated.
+    module_power_w : float
+        Electrical power of a single-lane module (optics and its own 2x2 DSP).
+    mimo_pj_per_cmul : float
+        Energy of one complex multiplication of the MIMO equalizer, in pJ
+        (see :func:`sdmnet.physics.module_power_w`).
+    switch_insertion_loss_db : float
+        Loss of one pass through a switch at an intermediate site.
+    connector_loss_db : float
+        Loss of the connectors of one cable (both ends together).
+    splice_loss_db : float
+        Loss of one fusion splice inside a cable.
+    splice_spacing_km : float
+        Cable section length between splices; a cable of L km has ceil(L / spacing) - 1 splices.
+    mimo_base_taps : int
+        Equalizer taps needed without any modal delay spread (residual dispersion, filtering).
+    tap_margin : float
+        Equalizer window in units of the RMS group-delay spread.
+    """
+
+    lane_gbps: float = defaults.LANE_GBPS
+    symbol_rate_gbaud: float = defaults.SYMBOL_RATE_GBAUD
+    samples_per_symbol: float = defaults.SAMPLES_PER_SYMBOL
+    reach_km: float = defaults.REACH_KM
+    power_budget_db: float = defaults.POWER_BUDGET_DB
+    max_mimo_taps: int = defaults.MAX_MIMO_TAPS
+    crosstalk_limit_db: float = defaults.CROSSTALK_LIMIT_DB
+    mdl_limit_db: float = defaults.MDL_LIMIT_DB
+    module_power_w: float = defaults.MODULE_POWER_W
+    mimo_pj_per_cmul: float = defaults.MIMO_PJ_PER_CMUL
+    switch_insertion_loss_db: float = defaults.SWITCH_INSERTION_LOSS_DB
+    connector_loss_db: float = defaults.CONNECTORS_PER_CABLE * defaults.CONNECTOR_LOSS_DB
+    splice_loss_db: float = defaults.SPLICE_LOSS_DB
+    splice_spacing_km: float = defaults.SPLICE_SPACING_KM
+    mimo_base_taps: int = defaults.MIMO_BASE_TAPS
+    tap_margin: float = defaults.TAP_MARGIN
+
+
+@dataclass(frozen=True)
+class RunSpec:
+    """How long and how often to simulate.
+
+    Attributes
+    ----------
+    requests : int
+        Arrivals measured per replication, after the warm-up.
+    warmup : int
+        Arrivals simulated and discarded at the start of each replication.
+    replications : int
+        Independent replications per (architecture, load) point; >= 2 for an interval.
+    k_paths : int
+        Candidate shortest paths tried per datacenter pair.
+    confidence : float
+        Level of the Student-t interval.
+    """
+
+    requests: int = 20_000
+    warmup: int = 2_000
+    replications: int = 5
+    k_paths: int = 3
+    confidence: float = 0.95
+
+
+@dataclass(frozen=True)
+class Architecture:
+    """A switching architecture under comparison.
+
+    Attributes
+    ----------
+    name : str
+        Label in every table.
+    switching : {"independent", "fractional-joint", "joint", "fiber"}
+        Switching granularity (MODEL.md section 2).
+    group : int or None
+        Cores per unit for ``fractional-joint``; ignored otherwise.
+    lane_change : bool
+        A unit may move to another core (group) at a switch.
+    share : bool
+        Spare capacity of lit units between the same sites on the same path carries later
+        demands (grooming).
+    fiber_type : str or None
+        If set, every cable uses this fiber type under this architecture (a what-if).
+    """
+
+    name: str
+    switching: Switching
+    group: int | None = None
+    lane_change: bool = True
+    share: bool = False
+    fiber_type: str | None = None
+
+
+@dataclass(frozen=True)
+class PlanSpec:
+    """Dimensioning target.
+
+    Attributes
+    ----------
+    target_blocking : float
+        Network request blocking to stay under.
+    per_pair : bool
+        Also keep every datacenter pair's blocking under the target.
+    max_fiber_pairs : int
+        Upper bound of the search per cable.
+    unit_costs : dict
+        Optional unit prices: keys ``fiber_pair_km``, ``transceiver_lane``, ``switch_port``.
+    """
+
+    target_blocking: float = 0.01
+    per_pair: bool = False
+    max_fiber_pairs: int = 64
+    unit_costs: dict[str, float] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class ForecastSpec:
+    """Demand growth over a horizon.
+
+    Attributes
+    ----------
+    years : int
+        Horizon; years 0..years are planned.
+    growth_per_year : float
+        Yearly growth rate (0.3 = +30 %/year), used when ``factors`` is empty.
+    factors : tuple of float
+        Optional explicit load factor per year 1..years (relative to year 0).
+    """
+
+    years: int = 5
+    growth_per_year: float = 0.3
+    factors: tuple[float, ...] = ()
+
+    def factor(self, year: int) -> float:
+        """Load multiplier of ``year`` relative to year 0."""
+        if year == 0:
+            return 1.0
+        if self.factors:
+            return self.factors[year - 1]
+        return (1.0 + self.growth_per_year) ** year
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """Everything one run needs: topology, traffic, transceiver, run lengths, architectures."""
+
+    name: str
+    topology: Topology
+    seed: int
+    traffic: TrafficSpec
+    transceiver: TransceiverSpec
+    run: RunSpec
+    architectures: tuple[Architecture, ...]
+    plan: PlanSpec | None = None
+    forecast: ForecastSpec | None = None
+    source: Path | None = None
+
+    def architecture(self, name: str) -> Architecture:
+        """The architecture named ``name`` (KeyError if absent)."""
+        for arch in self.architectures:
+            if arch.name == name:
+                return arch
+        raise KeyError(name)
+
+    def topology_for(self, arch: Architecture) -> Topology:
+        """The topology as ``arch`` sees it (with its fiber-type override applied)."""
+        if arch.fiber_type is None:
+            return self.topology
+        return self.topology.with_fiber_type(arch.fiber_type)

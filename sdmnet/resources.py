@@ -1,0 +1,61 @@
+"""Installed resources that follow from the topology and the architecture, not from traffic.
+
+Switch ports count line-side ports: every fiber of a cable ending at a site occupies
+``ports_per_fiber`` ports of that site's switch (MODEL.md section 2), counting one duplex port
+per fiber pair (common practice, no source: a duplex port terminates a fiber pair).
+Fiber-km counts strands: 2 x fiber pairs x length.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from .architectures import unit_geometry
+from .model import Architecture, Scenario
+
+__all__ = ["InstalledResources", "installed_resources"]
+
+
+@dataclass(frozen=True)
+class InstalledResources:
+    """Ports and fibers of one architecture on one topology.
+
+    Attributes
+    ----------
+    site_switch_ports : dict of str to int
+        Line-side switch ports per site.
+    switch_ports : int
+        Total over sites.
+    fiber_pairs : int
+        Fiber pairs over all cables.
+    fiber_strands : int
+        Fibers (2 x pairs).
+    fiber_km : float
+        Strand-km: sum of 2 x pairs x length.
+    """
+
+    site_switch_ports: dict[str, int]
+    switch_ports: int
+    fiber_pairs: int
+    fiber_strands: int
+    fiber_km: float
+
+
+def installed_resources(scenario: Scenario, arch: Architecture) -> InstalledResources:
+    """Switch ports and fibers of ``arch`` on the scenario's topology (with its override)."""
+    topo = scenario.topology_for(arch)
+    ports = {s.id: 0 for s in topo.sites}
+    lane = scenario.transceiver.lane_gbps
+    for cable in topo.cables:
+        geo = unit_geometry(arch, topo.fiber_types[cable.fiber_type], lane)
+        per_end = cable.fiber_pairs * geo.ports_per_fiber
+        ports[cable.a] += per_end
+        ports[cable.b] += per_end
+    pairs = sum(c.fiber_pairs for c in topo.cables)
+    return InstalledResources(
+        site_switch_ports=ports,
+        switch_ports=sum(ports.values()),
+        fiber_pairs=pairs,
+        fiber_strands=2 * pairs,
+        fiber_km=sum(2 * c.fiber_pairs * c.length_km for c in topo.cables),
+    )

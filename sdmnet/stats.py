@@ -1,0 +1,125 @@
+"""Output analysis: from replication records to point estimates with confidence intervals.
+
+Intervals come from independent replications (Student t on the per-replication means), not
+from a binomial on the blocked count: blocked requests cluster in time, so a binomial interval
+is too narrow (Law, *Simulation Modeling and Analysis*, output-analysis chapter; Srikant &
+Whitt, ACM TOMACS 6(1), 1996).  The warm-up is removed inside the engine (the first
+``warmup`` arrivals of each replication are not measured).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats as _scipy_stats
+
+from .engine import ReplicationRecord
+
+__all__ = ["Interval", "t_interval", "ratio_interval", "PointSummary", "summarize_point"]
+
+
+@dataclass(frozen=True)
+class Interval:
+    """A point estimate and its two-sided confidence interval (NaN bounds with one sample)."""
+
+    mean: float
+    low: float
+    high: float
+
+
+def t_interval(values: Sequence[float], confidence: float = 0.95) -> Interval:
+    """Student-t interval for the mean of independent, identically distributed ``values``.
+
+    Bounds are NaN with fewer than two values (no spread to estimate).
+    """
+    x = np.asarray(values, dtype=float)
+    if x.size == 0:
+        return Interval(math.nan, math.nan, math.nan)
+    mean = float(x.mean())
+    if x.size < 2:
+        return Interval(mean, math.nan, math.nan)
+    half = float(_scipy_stats.t.ppf(0.5 + confidence / 2, x.size - 1) * x.std(ddof=1) / math.sqrt(x.size))
+    return Interval(mean, mean - half, mean + half)
+
+
+def ratio_interval(numerators: Sequence[float], denominators: Sequence[float], confidence: float = 0.95) -> Interval:
+    """Interval for a ratio estimated per replication (e.g. blocked / offered).
+
+    Replications with a zero denominator are left out. Bounds are clipped to [0, 1] since every
+    ratio used here is a probability.
+    """
+    pairs = [(n / d) for n, d in zip(numerators, denominators) if d > 0]
+    iv = t_interval(pairs, confidence)
+    if math.isnan(iv.low):
+        return iv
+    return Interval(iv.mean, max(0.0, iv.low), min(1.0, iv.high))
+
+
+@dataclass(frozen=True)
+class PointSummary:
+    """One (architecture, load) point aggregated over its replications."""
+
+    architecture: str
+    load_erlang: float
+    replications: int
+    requests: int
+    blocked: int
+    blocking: Interval
+    bandwidth_blocking: Interval
+    class_blocking: tuple[Interval, ...]
+    class_offered: tuple[int, ...]
+    class_blocked: tuple[int, ...]
+    pair_blocking: tuple[Interval, ...]
+    pair_offered: tuple[int, ...]
+    pair_blocked: tuple[int, ...]
+    transceivers_peak: int
+    transceivers_mean: float
+    lanes_peak: int
+    lanes_mean: float
+    site_transceivers_peak: tuple[int, ...]
+    site_transceivers_mean: tuple[float, ...]
+    cable_utilisation: tuple[float, ...]
+
+
+def summarize_point(records: Sequence[ReplicationRecord], confidence: float = 0.95) -> PointSummary:
+    """Aggregate the replications of one (architecture, load) point.
+
+    Peaks are the maximum over replications (a planner sizes for the worst one seen); means
+    are averaged over replications.
+    """
+    if not records:
+        raise ValueError("no replications to summarize")
+    recs = sorted(records, key=lambda r: r.replication)
+    first = recs[0]
+    nclass, npair = len(first.class_offered), len(first.pair_offered)
+
+    def per(attr_off: str, attr_blk: str, i: int) -> Interval:
+        return ratio_interval(
+            [getattr(r, attr_blk)[i] for r in recs], [getattr(r, attr_off)[i] for r in recs], confidence
+        )
+
+    return PointSummary(
+        architecture=first.architecture,
+        load_erlang=first.load_erlang,
+        replications=len(recs),
+        requests=sum(r.requests for r in recs),
+        blocked=sum(r.blocked for r in recs),
+        blocking=ratio_interval([r.blocked for r in recs], [r.requests for r in recs], confidence),
+        bandwidth_blocking=ratio_interval([r.blocked_gbps for r in recs], [r.offered_gbps for r in recs], confidence),
+        class_blocking=tuple(per("class_offered", "class_blocked", i) for i in range(nclass)),
+        class_offered=tuple(sum(r.class_offered[i] for r in recs) for i in range(nclass)),
+        class_blocked=tuple(sum(r.class_blocked[i] for r in recs) for i in range(nclass)),
+        pair_blocking=tuple(per("pair_offered", "pair_blocked", i) for i in range(npair)),
+        pair_offered=tuple(sum(r.pair_offered[i] for r in recs) for i in range(npair)),
+        pair_blocked=tuple(sum(r.pair_blocked[i] for r in recs) for i in range(npair)),
+        transceivers_peak=max(r.transceivers_peak for r in recs),
+        transceivers_mean=float(np.mean([r.transceivers_mean for r in recs])),
+        lanes_peak=max(r.lanes_peak for r in recs),
+        lanes_mean=float(np.mean([r.lanes_mean for r in recs])),
+        site_transceivers_peak=tuple(int(x) for x in np.max([r.site_transceivers_peak for r in recs], axis=0)),
+        site_transceivers_mean=tuple(float(x) for x in np.mean([r.site_transceivers_mean for r in recs], axis=0)),
+        cable_utilisation=tuple(float(x) for x in np.mean([r.cable_utilisation for r in recs], axis=0)),
+    )

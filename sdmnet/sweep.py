@@ -1,0 +1,313 @@
+"""Sweeps: independent tasks (architecture x load x replication), who runs them, and where
+their results are kept.
+
+Every task is self-contained: it carries the scenario and its indices, and its random streams
+come from the scenario seed and the replication index alone (:func:`sdmnet.engine.replication_seed`),
+so a sweep gives the same records whether it runs inline, in a local process pool or on a Dask
+cluster, in any order.
+
+Each finished task is written at once to ``OUT/tasks/<key>.json`` (write to a temporary file,
+then rename, so a file is whole or absent).  ``resume=True`` reads the tasks already there
+(refusing them if they came from a different scenario) and runs only the missing ones.
+SIGINT or SIGTERM stops the sweep with :class:`~sdmnet.errors.RunInterrupted`; what finished is
+on disk.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import signal
+import sys
+import tempfile
+import time
+from collections.abc import Callable, Iterable, Iterator
+from dataclasses import asdict, dataclass
+from pathlib import Path
+from typing import Any, TextIO
+
+from .engine import EngineSetup, ReplicationRecord, prepare, simulate_replication
+from .errors import InputError, RunInterrupted
+from .model import Scenario
+
+__all__ = [
+    "Task",
+    "plan_tasks",
+    "run_task",
+    "scenario_fingerprint",
+    "TaskStore",
+    "Progress",
+    "run_sweep",
+]
+
+
+@dataclass(frozen=True)
+class Task:
+    """One replication of one architecture at one load point."""
+
+    arch_index: int
+    architecture: str
+    load_index: int
+    load_erlang: float
+    replication: int
+
+    @property
+    def key(self) -> str:
+        """File-name-safe identity of the task within its sweep."""
+        return f"a{self.arch_index:02d}-l{self.load_index:03d}-r{self.replication:03d}"
+
+
+def plan_tasks(scenario: Scenario) -> list[Task]:
+    """All tasks of a scenario, architecture-major then load then replication."""
+    return [
+        Task(ai, arch.name, li, load, rep)
+        for ai, arch in enumerate(scenario.architectures)
+        for li, load in enumerate(scenario.traffic.loads_erlang)
+        for rep in range(scenario.run.replications)
+    ]
+
+
+def _strip_sources(value: Any) -> Any:
+    if isinstance(value, dict):
+        return {k: _strip_sources(v) for k, v in value.items() if k not in ("source", "matrix_file")}
+    if isinstance(value, (list, tuple)):
+        return [_strip_sources(v) for v in value]
+    return value
+
+
+def scenario_fingerprint(scenario: Scenario) -> str:
+    """A digest of everything that shapes the results (file locations left out)."""
+    text = json.dumps(_strip_sources(asdict(scenario)), sort_keys=True, default=str)
+    return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
+# One prepared setup per (scenario, architecture) per process: preparing routes once per
+# architecture, not once per replication.
+_SETUP_CACHE: dict[tuple[str, str], EngineSetup] = {}
+
+
+def run_task(scenario: Scenario, task: Task, fingerprint: str | None = None) -> ReplicationRecord:
+    """Run one task (the entry point of every executor)."""
+    fp = fingerprint or scenario_fingerprint(scenario)
+    key = (fp, task.architecture)
+    setup = _SETUP_CACHE.get(key)
+    if setup is None:
+        if len(_SETUP_CACHE) > 64:
+            _SETUP_CACHE.clear()
+        setup = prepare(scenario, scenario.architectures[task.arch_index])
+        _SETUP_CACHE[key] = setup
+    return simulate_replication(
+        setup, task.load_erlang, scenario.seed, task.replication, scenario.run.requests, scenario.run.warmup
+    )
+
+
+class TaskStore:
+    """Finished tasks of one sweep, one JSON file each under ``folder``."""
+
+    def __init__(self, folder: Path, fingerprint: str) -> None:
+        self.folder = Path(folder)
+        self.fingerprint = fingerprint
+
+    def path(self, task: Task) -> Path:
+        return self.folder / f"{task.key}.json"
+
+    def load(self, tasks: Iterable[Task]) -> dict[str, ReplicationRecord]:
+        """Records of the given tasks already on disk (from this very scenario)."""
+        found: dict[str, ReplicationRecord] = {}
+        for task in tasks:
+            path = self.path(task)
+            if not path.exists():
+                continue
+            try:
+                data = json.loads(path.read_text())
+            except (OSError, json.JSONDecodeError) as exc:
+                raise InputError(path, "task file", f"unreadable ({exc}); delete it to rerun the task") from None
+            if data.get("fingerprint") != self.fingerprint:
+                raise InputError(
+                    self.folder,
+                    "--resume",
+                    "the finished tasks here come from a different scenario or run length; "
+                    "use another --out folder or run without --resume",
+                )
+            found[task.key] = ReplicationRecord.from_dict(data["record"])
+        return found
+
+    def save(self, task: Task, record: ReplicationRecord) -> None:
+        """Write one finished task atomically."""
+        self.folder.mkdir(parents=True, exist_ok=True)
+        payload = {"fingerprint": self.fingerprint, "task": asdict(task), "record": record.to_dict()}
+        fd, tmp = tempfile.mkstemp(dir=self.folder, prefix=".tmp-", suffix=".json")
+        with os.fdopen(fd, "w") as fh:
+            json.dump(payload, fh)
+        os.replace(tmp, self.path(task))
+
+    def clear(self) -> None:
+        """Remove every task file (a fresh, non-resumed run)."""
+        if self.folder.exists():
+            for path in self.folder.glob("*.json"):
+                path.unlink()
+
+
+class Progress:
+    """Task counter on stderr, silent for runs shorter than ``quiet_for`` seconds."""
+
+    def __init__(
+        self, total: int, label: str, stream: TextIO | None = None, quiet_for: float = 2.0, every: float = 1.0
+    ) -> None:
+        self.total = total
+        self.label = label
+        self.stream = stream if stream is not None else sys.stderr
+        self.quiet_for = quiet_for
+        self.every = every
+        self.done = 0
+        self.started = time.monotonic()
+        self._last = 0.0
+        self._shown = False
+
+    def step(self, n: int = 1) -> None:
+        self.done += n
+        now = time.monotonic()
+        elapsed = now - self.started
+        if elapsed < self.quiet_for or (now - self._last < self.every and self.done < self.total):
+            return
+        self._last = now
+        self._shown = True
+        rate = self.done / elapsed if elapsed > 0 else 0.0
+        eta = (self.total - self.done) / rate if rate > 0 else float("nan")
+        self.stream.write(f"{self.label}: {self.done}/{self.total} tasks, {elapsed:.0f} s elapsed, ~{eta:.0f} s left\n")
+        self.stream.flush()
+
+    def finish(self) -> None:
+        if self._shown and self.done < self.total:
+            self.stream.write(f"{self.label}: stopped at {self.done}/{self.total} tasks\n")
+
+
+_Finished = tuple[Task, ReplicationRecord]
+
+
+def _ignore_sigint() -> None:
+    # Workers leave Ctrl-C to the parent, which stops the pool and keeps finished tasks.
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def _run_task_args(args: tuple[Scenario, Task, str]) -> tuple[Task, ReplicationRecord]:
+    scenario, task, fp = args
+    return task, run_task(scenario, task, fp)
+
+
+def _local_results(scenario: Scenario, todo: list[Task], fp: str, jobs: int) -> Iterator[_Finished]:
+    if jobs <= 1 or len(todo) <= 1:
+        for task in todo:
+            yield task, run_task(scenario, task, fp)
+        return
+    import multiprocessing as mp
+
+    ctx = mp.get_context("fork" if sys.platform.startswith("linux") else "spawn")
+    pool = ctx.Pool(processes=jobs, initializer=_ignore_sigint)
+    try:
+        # Larger tasks first would balance better, but tasks of one sweep are alike in size.
+        yield from pool.imap_unordered(_run_task_args, [(scenario, t, fp) for t in todo], chunksize=1)
+        pool.close()
+    finally:
+        pool.terminate()
+        pool.join()
+
+
+def _dask_results(scenario: Scenario, todo: list[Task], fp: str, address: str) -> Iterator[_Finished]:
+    try:
+        from distributed import Client, as_completed
+    except ImportError:
+        raise InputError(
+            "<command line>", "--scheduler", "Dask distributed is not installed: pip install 'sdmnet[cluster]'"
+        ) from None
+    try:
+        client = Client(address, timeout="10s")
+    except (OSError, TimeoutError) as exc:
+        raise InputError("<command line>", "--scheduler", f"cannot reach scheduler {address}: {exc}") from None
+    try:
+        scattered = client.scatter(scenario, broadcast=True)
+        futures = [client.submit(run_task, scattered, t, fp, key=f"sdmnet-{fp}-{t.key}", pure=False) for t in todo]
+        by_future = dict(zip(futures, todo))
+        for fut in as_completed(futures):
+            yield by_future[fut], fut.result()
+    finally:
+        client.close()
+
+
+def run_sweep(
+    scenario: Scenario,
+    store: TaskStore | None,
+    *,
+    tasks: list[Task] | None = None,
+    jobs: int = 1,
+    scheduler: str | None = None,
+    resume: bool = False,
+    progress: Progress | None = None,
+    on_record: Callable[[Task, ReplicationRecord], None] | None = None,
+) -> dict[str, ReplicationRecord]:
+    """Run every task of ``scenario`` (or ``tasks``) and return records by task key.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        What to simulate.
+    store : TaskStore or None
+        Where finished tasks go; None keeps them in memory only.
+    tasks : list of Task, optional
+        Defaults to :func:`plan_tasks`.
+    jobs : int
+        Local worker processes (1 runs inline).
+    scheduler : str, optional
+        Address of a Dask scheduler (``tcp://host:port``); overrides ``jobs``.
+    resume : bool
+        Reuse finished tasks found in ``store``.
+    progress : Progress, optional
+        Told of each finished task.
+    on_record : callable, optional
+        Called with each newly finished task and record.
+
+    Raises
+    ------
+    RunInterrupted
+        On SIGINT/SIGTERM, after every finished task is saved.
+    """
+    tasks = plan_tasks(scenario) if tasks is None else tasks
+    fp = scenario_fingerprint(scenario)
+    records: dict[str, ReplicationRecord] = {}
+    if store is not None:
+        if resume:
+            records.update(store.load(tasks))
+        else:
+            store.clear()
+    todo = [t for t in tasks if t.key not in records]
+    if progress is not None:
+        progress.done = len(records)
+
+    def _terminate(signum: int, frame: object) -> None:
+        raise KeyboardInterrupt
+
+    old_term = signal.getsignal(signal.SIGTERM)
+    try:
+        signal.signal(signal.SIGTERM, _terminate)
+    except ValueError:  # not the main thread: leave SIGTERM alone
+        old_term = None
+    results = _dask_results(scenario, todo, fp, scheduler) if scheduler else _local_results(scenario, todo, fp, jobs)
+    try:
+        for task, record in results:
+            if store is not None:
+                store.save(task, record)
+            records[task.key] = record
+            if on_record is not None:
+                on_record(task, record)
+            if progress is not None:
+                progress.step()
+    except KeyboardInterrupt:
+        if progress is not None:
+            progress.finish()
+        raise RunInterrupted(f"interrupted after {len(records)} of {len(tasks)} tasks") from None
+    finally:
+        results.close()  # stops a worker pool even when the loop body raised
+        if old_term is not None:
+            signal.signal(signal.SIGTERM, old_term)
+    return records

@@ -1,0 +1,243 @@
+"""Result tables (pandas DataFrames) and how they are written.
+
+Tables are built from aggregated statistics only; the file layout of each verb's output folder
+is fixed here so that every verb writes the same way (CSV with a fixed float format, so the same
+numbers always give the same bytes; Parquet beside it when pyarrow is installed).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import tempfile
+from collections.abc import Sequence
+from pathlib import Path
+
+import pandas as pd
+
+from .engine import EngineSetup
+from .model import Scenario
+from .resources import InstalledResources
+from .stats import PointSummary
+
+__all__ = [
+    "SUMMARY_COLUMNS",
+    "summary_table",
+    "class_table",
+    "pair_table",
+    "site_table",
+    "cable_table",
+    "write_table",
+    "write_json",
+]
+
+# MODEL.md section 5 names the first columns; the rest are ours.
+SUMMARY_COLUMNS = [
+    "architecture",
+    "switching",
+    "load_erlang",
+    "requests",
+    "blocked",
+    "blocking",
+    "blocking_ci_low",
+    "blocking_ci_high",
+    "bandwidth_blocking",
+    "transceivers_peak",
+    "transceiver_lanes_peak",
+    "switch_ports",
+    "fiber_pairs",
+    "fiber_km",
+    "bandwidth_blocking_ci_low",
+    "bandwidth_blocking_ci_high",
+    "transceivers_mean",
+    "transceiver_lanes_mean",
+    "fiber_strands",
+    "replications",
+    "cores_per_unit",
+    "unit_gbps",
+    "unrouted_pairs",
+]
+
+FLOAT_FORMAT = "%.10g"
+
+
+def summary_table(
+    scenario: Scenario,
+    points: Sequence[PointSummary],
+    setups: dict[str, EngineSetup],
+    resources: dict[str, InstalledResources],
+) -> pd.DataFrame:
+    """One row per (architecture, load point), in scenario order."""
+    rows = []
+    for p in points:
+        arch = scenario.architecture(p.architecture)
+        setup = setups[arch.name]
+        res = resources[arch.name]
+        first_route = next((r for r in setup.route_unit_gbps if r), (float("nan"),))
+        rows.append(
+            {
+                "architecture": arch.name,
+                "switching": arch.switching,
+                "load_erlang": p.load_erlang,
+                "requests": p.requests,
+                "blocked": p.blocked,
+                "blocking": p.blocking.mean,
+                "blocking_ci_low": p.blocking.low,
+                "blocking_ci_high": p.blocking.high,
+                "bandwidth_blocking": p.bandwidth_blocking.mean,
+                "transceivers_peak": p.transceivers_peak,
+                "transceiver_lanes_peak": p.lanes_peak,
+                "switch_ports": res.switch_ports,
+                "fiber_pairs": res.fiber_pairs,
+                "fiber_km": res.fiber_km,
+                "bandwidth_blocking_ci_low": p.bandwidth_blocking.low,
+                "bandwidth_blocking_ci_high": p.bandwidth_blocking.high,
+                "transceivers_mean": p.transceivers_mean,
+                "transceiver_lanes_mean": p.lanes_mean,
+                "fiber_strands": res.fiber_strands,
+                "replications": p.replications,
+                "cores_per_unit": _cores_per_unit(scenario, arch.name),
+                "unit_gbps": first_route[0],
+                "unrouted_pairs": len(setup.unrouted_pairs),
+            }
+        )
+    return pd.DataFrame(rows, columns=SUMMARY_COLUMNS)
+
+
+def _cores_per_unit(scenario: Scenario, name: str) -> int:
+    from .architectures import unit_geometry
+
+    arch = scenario.architecture(name)
+    topo = scenario.topology_for(arch)
+    cable = topo.cables[0]
+    return unit_geometry(arch, topo.fiber_types[cable.fiber_type], scenario.transceiver.lane_gbps).cores_per_unit
+
+
+def class_table(points: Sequence[PointSummary], setups: dict[str, EngineSetup]) -> pd.DataFrame:
+    """Blocking per demand-size class (the Kaufman-Roberts view)."""
+    rows = []
+    for p in points:
+        setup = setups[p.architecture]
+        for k, size in enumerate(setup.sizes_gbps):
+            iv = p.class_blocking[k]
+            rows.append(
+                {
+                    "architecture": p.architecture,
+                    "load_erlang": p.load_erlang,
+                    "size_gbps": size,
+                    "requests": p.class_offered[k],
+                    "blocked": p.class_blocked[k],
+                    "blocking": iv.mean,
+                    "blocking_ci_low": iv.low,
+                    "blocking_ci_high": iv.high,
+                }
+            )
+    return pd.DataFrame(rows)
+
+
+def pair_table(points: Sequence[PointSummary], setups: dict[str, EngineSetup]) -> pd.DataFrame:
+    """Blocking per datacenter pair."""
+    rows = []
+    for p in points:
+        setup = setups[p.architecture]
+        for i, (a, b) in enumerate(setup.pairs):
+            iv = p.pair_blocking[i]
+            rows.append(
+                {
+                    "architecture": p.architecture,
+                    "load_erlang": p.load_erlang,
+                    "a": a,
+                    "b": b,
+                    "routes": len(setup.routes[i]),
+                    "requests": p.pair_offered[i],
+                    "blocked": p.pair_blocked[i],
+                    "blocking": iv.mean,
+                    "blocking_ci_low": iv.low,
+                    "blocking_ci_high": iv.high,
+                }
+            )
+    return pd.DataFrame(rows)
+
+
+def site_table(
+    scenario: Scenario,
+    points: Sequence[PointSummary],
+    setups: dict[str, EngineSetup],
+    resources: dict[str, InstalledResources],
+) -> pd.DataFrame:
+    """Transceivers and switch ports per site."""
+    roles = {s.id: s.role for s in scenario.topology.sites}
+    rows = []
+    for p in points:
+        setup = setups[p.architecture]
+        ports = resources[p.architecture].site_switch_ports
+        for i, site in enumerate(setup.sites):
+            rows.append(
+                {
+                    "architecture": p.architecture,
+                    "load_erlang": p.load_erlang,
+                    "site": site,
+                    "role": roles[site],
+                    "switch_ports": ports[site],
+                    "transceivers_peak": p.site_transceivers_peak[i],
+                    "transceivers_mean": p.site_transceivers_mean[i],
+                }
+            )
+    return pd.DataFrame(rows)
+
+
+def cable_table(scenario: Scenario, points: Sequence[PointSummary]) -> pd.DataFrame:
+    """Mean utilisation of every cable (busy unit positions / unit positions)."""
+    rows = []
+    for p in points:
+        topo = scenario.topology_for(scenario.architecture(p.architecture))
+        for i, cable in enumerate(topo.cables):
+            rows.append(
+                {
+                    "architecture": p.architecture,
+                    "load_erlang": p.load_erlang,
+                    "cable": cable.key,
+                    "length_km": cable.length_km,
+                    "fiber_type": cable.fiber_type,
+                    "fiber_pairs": cable.fiber_pairs,
+                    "utilisation": p.cable_utilisation[i],
+                }
+            )
+    return pd.DataFrame(rows)
+
+
+def _atomic_write(path: Path, write) -> None:
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=".tmp-", suffix=path.suffix)
+    os.close(fd)
+    try:
+        write(tmp)
+        os.replace(tmp, path)
+    finally:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+
+
+def write_table(frame: pd.DataFrame, path: Path) -> Path:
+    """Write ``frame`` as CSV (and Parquet beside it when pyarrow is importable)."""
+    path = Path(path)
+    _atomic_write(path, lambda tmp: frame.to_csv(tmp, index=False, float_format=FLOAT_FORMAT))
+    try:
+        import pyarrow  # noqa: F401
+    except ImportError:
+        return path
+    _atomic_write(path.with_suffix(".parquet"), lambda tmp: frame.to_parquet(tmp, index=False))
+    return path
+
+
+def write_json(data: dict, path: Path) -> Path:
+    """Write ``data`` as indented JSON, atomically."""
+    path = Path(path)
+
+    def _write(tmp: str) -> None:
+        with open(tmp, "w") as fh:
+            json.dump(data, fh, indent=2, sort_keys=True, default=str)
+            fh.write("\n")
+
+    _atomic_write(path, _write)
+    return path

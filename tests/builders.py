@@ -1,0 +1,68 @@
+"""Small in-memory scenarios for tests (no files involved)."""
+
+from __future__ import annotations
+
+from sdmnet.model import (
+    Architecture,
+    Cable,
+    FiberType,
+    RunSpec,
+    Scenario,
+    Site,
+    Topology,
+    TrafficSpec,
+    TransceiverSpec,
+)
+from sdmnet.routing import Route, datacenter_pairs, k_shortest_routes
+
+
+def fiber_type(name="f", cores=1, coupling="weak", coupled_group=None, channels=10) -> FiberType:
+    group = coupled_group if coupled_group is not None else (1 if coupling == "weak" else cores)
+    return FiberType(name, cores, coupling, group, channels, 0.2)
+
+
+def single_cable(fiber: FiberType, fiber_pairs=1, length_km=10.0) -> Topology:
+    return Topology(
+        "one-cable",
+        {fiber.name: fiber},
+        (Site("A", "datacenter"), Site("B", "datacenter")),
+        (Cable("A", "B", length_km, fiber.name, fiber_pairs),),
+    )
+
+
+def chain(fiber: FiberType, hops: int, fiber_pairs=1, length_km=10.0) -> Topology:
+    """Datacenters at both ends of ``hops`` cables in series, hubs in between."""
+    ids = [f"S{i}" for i in range(hops + 1)]
+    sites = tuple(Site(s, "datacenter" if i in (0, hops) else "hub") for i, s in enumerate(ids))
+    cables = tuple(Cable(a, b, length_km, fiber.name, fiber_pairs) for a, b in zip(ids, ids[1:]))
+    return Topology("chain", {fiber.name: fiber}, sites, cables)
+
+
+def scenario(
+    topology: Topology,
+    architectures,
+    loads=(5.0,),
+    sizes=((100.0, 1.0),),
+    lane_gbps=100.0,
+    requests=2000,
+    warmup=200,
+    replications=3,
+    k_paths=1,
+    seed=7,
+    pattern="uniform",
+) -> Scenario:
+    return Scenario(
+        name="test",
+        topology=topology,
+        seed=seed,
+        traffic=TrafficSpec(pattern, tuple(loads), 1.0, tuple(sizes)),
+        transceiver=TransceiverSpec(lane_gbps=lane_gbps),
+        run=RunSpec(requests, warmup, replications, k_paths),
+        architectures=tuple(architectures),
+    )
+
+
+def shortest_routes(sc: Scenario, arch: Architecture) -> dict[tuple[str, str], list[Route]]:
+    """Route finder without physics: the k shortest routes of every pair."""
+    topo = sc.topology_for(arch)
+    return {p: k_shortest_routes(topo, *p, sc.run.k_paths) for p in datacenter_pairs(topo)}

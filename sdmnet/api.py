@@ -18,16 +18,39 @@ from pathlib import Path
 import pandas as pd
 
 from . import __version__
+from .compare import attach_estimate
 from .engine import EngineSetup, ReplicationRecord, prepare
 from .errors import InputError
 from .figures import blocking_figure
 from .model import Scenario
-from .resources import InstalledResources, installed_resources
+from .resources import InstalledResources, installed_resources, module_figures
 from .stats import PointSummary, summarize_point
 from .sweep import Progress, TaskStore, plan_tasks, run_sweep, scenario_fingerprint
-from .tables import cable_table, class_table, pair_table, site_table, summary_table, write_json, write_table
+from .tables import (
+    add_module_columns,
+    cable_table,
+    class_table,
+    pair_table,
+    site_table,
+    summary_table,
+    write_json,
+    write_table,
+)
 
-__all__ = ["SimulationResult", "simulate", "summarize_records", "software_versions", "ensure_out_dir"]
+__all__ = [
+    "SimulationResult",
+    "simulate",
+    "estimate",
+    "paths",
+    "plan",
+    "forecast",
+    "report",
+    "demo",
+    "run_estimate",
+    "summarize_records",
+    "software_versions",
+    "ensure_out_dir",
+]
 
 
 @dataclass
@@ -134,6 +157,9 @@ def simulate(
     records = run_sweep(scenario, store, tasks=tasks, jobs=jobs, scheduler=scheduler, resume=resume, progress=bar)
     points, setups, resources = summarize_records(scenario, records)
     summary = summary_table(scenario, points, setups, resources)
+    summary = add_module_columns(summary, {a.name: module_figures(scenario, a) for a in scenario.architectures})
+    estimate_net, _ = run_estimate(scenario)
+    summary = attach_estimate(summary, estimate_net, scenario, setups)
     classes = class_table(points, setups)
     pairs = pair_table(points, setups)
     sites = site_table(scenario, points, setups, resources)
@@ -180,3 +206,99 @@ def run_manifest(scenario: Scenario, verb: str, wall_time_s: float, **options: o
         "command": sys.argv,
         "wall_time_s": round(wall_time_s, 3),
     }
+
+
+def run_estimate(scenario: Scenario) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """The analytic estimate (network and per-pair tables), computed in memory."""
+    from .estimate import estimate as _estimate
+
+    return _estimate(scenario)
+
+
+def estimate(scenario: Scenario, out_dir: Path | str) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Analytic estimate, no simulation: writes ``estimate.csv`` and ``estimate_pairs.csv``.
+
+    Erlang B / Kaufman-Roberts per cable, coupled by the Erlang fixed point (docs/estimate.md).
+    """
+    started = time.perf_counter()
+    out = ensure_out_dir(out_dir)
+    network, pairs = run_estimate(scenario)
+    write_table(network, out / "estimate.csv")
+    write_table(pairs, out / "estimate_pairs.csv")
+    write_json(run_manifest(scenario, "estimate", time.perf_counter() - started), out / "run.json")
+    return network, pairs
+
+
+def paths(scenario: Scenario, out_dir: Path | str) -> pd.DataFrame:
+    """Candidate paths with their physics and feasibility: writes ``paths.csv``."""
+    from .pathtable import path_table
+
+    started = time.perf_counter()
+    out = ensure_out_dir(out_dir)
+    table = path_table(scenario)
+    write_table(table, out / "paths.csv")
+    write_json(run_manifest(scenario, "paths", time.perf_counter() - started), out / "run.json")
+    return table
+
+
+def plan(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True, cable_cuts: bool = False):
+    """Fewest fiber pairs per cable meeting the target blocking: writes ``plan.csv`` and more."""
+    from .planning import run_plan
+
+    started = time.perf_counter()
+    out = ensure_out_dir(out_dir)
+    result = run_plan(scenario, out, jobs=jobs, progress=progress, cable_cuts=cable_cuts)
+    write_json(run_manifest(scenario, "plan", time.perf_counter() - started, jobs=jobs), out / "run.json")
+    return result
+
+
+def forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True):
+    """The plan year by year under growth: writes ``forecast.csv`` and figures."""
+    from .forecasting import run_forecast
+
+    started = time.perf_counter()
+    out = ensure_out_dir(out_dir)
+    result = run_forecast(scenario, out, jobs=jobs, progress=progress)
+    write_json(run_manifest(scenario, "forecast", time.perf_counter() - started, jobs=jobs), out / "run.json")
+    return result
+
+
+def report(folder: Path | str, out_dir: Path | str | None = None) -> Path:
+    """Write ``report.html`` (self-contained) and figures for a results folder.
+
+    With ``out_dir``, the folder's tables are copied there first and the report is written
+    there, leaving ``folder`` untouched.
+    """
+    import shutil
+
+    from .report import write_report
+
+    path = Path(folder)
+    if not path.is_dir():
+        raise InputError(path, "report", "no such results folder")
+    if out_dir is not None and Path(out_dir).resolve() != path.resolve():
+        target = ensure_out_dir(out_dir)
+        for item in sorted(path.iterdir()):
+            if item.is_file() and item.suffix in (".csv", ".json", ".txt", ".parquet"):
+                shutil.copy2(item, target / item.name)
+        path = target
+    return write_report(path)
+
+
+def demo(scenario: Scenario, out_dir: Path | str, *, jobs: int = 2, progress: bool = True) -> SimulationResult:
+    """The bundled scenario end to end into one folder: paths, estimate, simulation,
+    plan, forecast and the report."""
+    started = time.perf_counter()
+    out = ensure_out_dir(out_dir)
+    paths(scenario, out)
+    estimate(scenario, out)
+    result = simulate(scenario, out, jobs=jobs, progress=progress)
+    if scenario.plan is not None:
+        plan(scenario, out, jobs=jobs, progress=progress)
+    if scenario.forecast is not None:
+        forecast(scenario, out, jobs=jobs, progress=progress)
+    wall = time.perf_counter() - started
+    write_json(run_manifest(scenario, "demo", wall, jobs=jobs), out / "run.json")
+    report(out)
+    result.wall_time_s = wall
+    return result

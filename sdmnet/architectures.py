@@ -14,9 +14,17 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from .model import Architecture, FiberType
+from .errors import ConfigurationError
+from .model import Architecture, FiberType, Scenario
 
-__all__ = ["UnitGeometry", "why_not_allowed", "unit_geometry", "units_needed", "modules_for_demand"]
+__all__ = [
+    "UnitGeometry",
+    "why_not_allowed",
+    "unit_geometry",
+    "cable_geometries",
+    "units_needed",
+    "modules_for_demand",
+]
 
 
 @dataclass(frozen=True)
@@ -106,6 +114,28 @@ def unit_geometry(arch: Architecture, fiber: FiberType, lane_gbps: float) -> Uni
         lanes = fiber.cores * fiber.channels
         return UnitGeometry(fiber.cores, 1, 1, lanes * lane_gbps, lanes, 1, whole_fiber=True)
     return UnitGeometry(g, fiber.cores // g, fiber.channels, g * lane_gbps, g, fiber.cores // g)
+
+
+def cable_geometries(scenario: Scenario, arch: Architecture) -> list[UnitGeometry]:
+    """The unit of ``arch`` on every cable of the scenario (with its fiber-type override).
+
+    Raises
+    ------
+    ConfigurationError
+        Naming the architecture and the first cable whose fiber type does not allow it.
+    """
+    topo = scenario.topology_for(arch)
+    out = []
+    for i, cable in enumerate(topo.cables):
+        try:
+            out.append(unit_geometry(arch, topo.fiber_types[cable.fiber_type], scenario.transceiver.lane_gbps))
+        except ValueError as exc:
+            known = arch in scenario.architectures
+            where = f"architectures[{scenario.architectures.index(arch)}]" if known else arch.name
+            raise ConfigurationError(
+                scenario.source or "<scenario>", where, f"cable {cable.key} (#{i}): {exc}"
+            ) from None
+    return out
 
 
 def units_needed(size_gbps: float, geometry: UnitGeometry) -> int:

@@ -88,8 +88,66 @@ def cmd_simulate(args: argparse.Namespace) -> int:
         resume=args.resume,
         progress=not args.quiet,
     )
+    api.report(result.out_dir)
     _print_summary(result.summary)
-    print(f"results in {result.out_dir}/ ({result.wall_time_s:.1f} s)")
+    print(f"results in {result.out_dir}/ ({result.wall_time_s:.1f} s), report.html")
+    return EXIT_OK
+
+
+def cmd_estimate(args: argparse.Namespace) -> int:
+    from . import api
+
+    scenario = _load_scenario(args)
+    out = _out(args, "estimate")
+    network, _pairs = api.estimate(scenario, out)
+    cols = ["architecture", "load_erlang", "blocking", "bandwidth_blocking"]
+    print(network[cols].to_string(index=False, float_format=lambda x: f"{x:.4g}"))
+    print(f"results in {out}/")
+    return EXIT_OK
+
+
+def cmd_paths(args: argparse.Namespace) -> int:
+    from . import api
+
+    scenario = _load_scenario(args)
+    out = _out(args, "paths")
+    table = api.paths(scenario, out)
+    feasible = int(table["feasible"].sum())
+    print(f"{len(table)} candidate paths, {feasible} feasible, {len(table) - feasible} not")
+    for (arch, a, b), part in table.groupby(["architecture", "a", "b"], sort=False):
+        if not part["feasible"].any():
+            print(f"  {arch}: no feasible path {a}-{b}: {part['reason'].iloc[0]}")
+    print(f"results in {out}/")
+    return EXIT_OK
+
+
+def cmd_plan(args: argparse.Namespace) -> int:
+    from . import api
+
+    scenario = _load_scenario(args)
+    out = _out(args, "plan")
+    api.plan(scenario, out, jobs=args.jobs, progress=not args.quiet, cable_cuts=args.cuts)
+    api.report(out)
+    print(f"results in {out}/ (report.html)")
+    return EXIT_OK
+
+
+def cmd_forecast(args: argparse.Namespace) -> int:
+    from . import api
+
+    scenario = _load_scenario(args)
+    out = _out(args, "forecast")
+    api.forecast(scenario, out, jobs=args.jobs, progress=not args.quiet)
+    api.report(out)
+    print(f"results in {out}/ (report.html)")
+    return EXIT_OK
+
+
+def cmd_report(args: argparse.Namespace) -> int:
+    from . import api
+
+    path = api.report(Path(args.folder), Path(args.out) if args.out else None)
+    print(f"report in {path}")
     return EXIT_OK
 
 
@@ -107,9 +165,9 @@ def cmd_demo(args: argparse.Namespace) -> int:
         raise InputError(DEMO_SCENARIO, "demo", "the bundled demo scenario is missing from this installation")
     scenario = load_scenario(DEMO_SCENARIO)
     out = Path(args.out) if args.out else Path("results") / "demo"
-    result = api.simulate(scenario, out, jobs=args.jobs, progress=not args.quiet)
+    result = api.demo(scenario, out, jobs=args.jobs, progress=not args.quiet)
     _print_summary(result.summary)
-    print(f"demo results in {result.out_dir}/ ({result.wall_time_s:.1f} s)")
+    print(f"demo results in {out}/ ({result.wall_time_s:.1f} s): open {out / 'report.html'}")
     return EXIT_OK
 
 
@@ -144,6 +202,34 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--scheduler", metavar="ADDRESS", help="run the sweep on a Dask scheduler (tcp://host:port)")
     p.add_argument("--resume", action="store_true", help="keep finished tasks in the output folder, run the rest")
     p.set_defaults(func=cmd_simulate)
+
+    p = verbs.add_parser("estimate", help="analytic blocking estimate (Erlang B / Kaufman-Roberts / fixed point)")
+    p.add_argument("scenario", metavar="SCENARIO")
+    _add_out(p)
+    p.set_defaults(func=cmd_estimate)
+
+    p = verbs.add_parser("paths", help="candidate paths with their physics and feasibility")
+    p.add_argument("scenario", metavar="SCENARIO")
+    _add_out(p)
+    p.set_defaults(func=cmd_paths)
+
+    p = verbs.add_parser("plan", help="fiber pairs per cable that meet the target blocking")
+    p.add_argument("scenario", metavar="SCENARIO")
+    _add_out(p)
+    _add_run_options(p)
+    p.add_argument("--cuts", action="store_true", help="also simulate every single cable cut on the plan")
+    p.set_defaults(func=cmd_plan)
+
+    p = verbs.add_parser("forecast", help="the plan year by year under demand growth")
+    p.add_argument("scenario", metavar="SCENARIO")
+    _add_out(p)
+    _add_run_options(p)
+    p.set_defaults(func=cmd_forecast)
+
+    p = verbs.add_parser("report", help="(re)write report.html and figures for a results folder")
+    p.add_argument("folder", metavar="DIR")
+    _add_out(p)
+    p.set_defaults(func=cmd_report)
 
     p = verbs.add_parser("demo", help="run the bundled scenario end to end")
     _add_out(p)

@@ -28,8 +28,7 @@ import numpy as np
 import simpy
 
 from .allocation import FiberState, Grant, UnitState
-from .architectures import UnitGeometry, unit_geometry, units_needed
-from .errors import ConfigurationError
+from .architectures import cable_geometries, units_needed
 from .model import Architecture, Scenario
 from .routing import Route, datacenter_pairs
 from .traffic import pair_weights, size_classes
@@ -172,17 +171,7 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
     """
     topo = scenario.topology_for(arch)
     lane = scenario.transceiver.lane_gbps
-    geometries: list[UnitGeometry] = []
-    for i, cable in enumerate(topo.cables):
-        fiber = topo.fiber_types[cable.fiber_type]
-        try:
-            geometries.append(unit_geometry(arch, fiber, lane))
-        except ValueError as exc:
-            known = arch in scenario.architectures
-            where = f"architectures[{scenario.architectures.index(arch)}]" if known else arch.name
-            raise ConfigurationError(
-                scenario.source or "<scenario>", where, f"cable {cable.key} (#{i}): {exc}"
-            ) from None
+    geometries = cable_geometries(scenario, arch)
     found = (route_finder or _default_route_finder)(scenario, arch)
     weights = pair_weights(topo, scenario.traffic)
     pairs = [p for p in datacenter_pairs(topo) if weights.get(p, 0.0) > 0]

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from .architectures import unit_geometry
 from .model import Architecture, Scenario
 
-__all__ = ["InstalledResources", "installed_resources"]
+__all__ = ["InstalledResources", "installed_resources", "ModuleFigures", "module_figures"]
 
 
 @dataclass(frozen=True)
@@ -59,3 +59,53 @@ def installed_resources(scenario: Scenario, arch: Architecture) -> InstalledReso
         fiber_strands=2 * pairs,
         fiber_km=sum(2 * c.fiber_pairs * c.length_km for c in topo.cables),
     )
+
+
+@dataclass(frozen=True)
+class ModuleFigures:
+    """Transceiver module of one architecture, sized for its worst feasible route.
+
+    Attributes
+    ----------
+    lanes : int
+        Lanes per module (g for unit switching; 1 for fiber switching).
+    mimo_size : int
+        D of the D x D MIMO equalizer (0 when no spatial MIMO is needed).
+    mimo_taps : int
+        Longest equalizer over the feasible routes.
+    power_w : float
+        Power of one module (:func:`sdmnet.physics.module_power_w`).
+    cmul_per_bit_frequency, cmul_per_bit_time : float
+        MIMO DSP load in complex multiplications per bit, frequency-domain (overlap-save) and
+        time-domain equalizer (:func:`sdmnet.physics.mimo_cmul_per_bit`); 0 without MIMO.
+    """
+
+    lanes: int
+    mimo_size: int
+    mimo_taps: int
+    power_w: float
+    cmul_per_bit_frequency: float
+    cmul_per_bit_time: float
+
+
+def module_figures(scenario: Scenario, arch: Architecture) -> ModuleFigures:
+    """The module ``arch`` needs, from the physics of its feasible routes (worst case)."""
+    from .pathtable import evaluate_route, feasible_routes
+    from .physics import mimo_cmul_per_bit, module_power_w
+
+    topo = scenario.topology_for(arch)
+    trx = scenario.transceiver
+    size = taps = 0
+    for routes in feasible_routes(scenario, arch).values():
+        for route in routes:
+            phys = evaluate_route(topo, route, arch, trx)
+            size, taps = max(size, phys.mimo_size), max(taps, phys.mimo_taps)
+    first = topo.cables[0]
+    geo = unit_geometry(arch, topo.fiber_types[first.fiber_type], trx.lane_gbps)
+    lanes = 1 if geo.whole_fiber else geo.lanes_per_unit
+    if size and taps:
+        fd = mimo_cmul_per_bit(size, taps, trx, "frequency")
+        td = mimo_cmul_per_bit(size, taps, trx, "time")
+    else:
+        fd = td = 0.0
+    return ModuleFigures(lanes, size, taps, module_power_w(trx, lanes, size, taps), fd, td)

@@ -23,6 +23,7 @@ from .stats import PointSummary
 __all__ = [
     "SUMMARY_COLUMNS",
     "summary_table",
+    "add_module_columns",
     "class_table",
     "pair_table",
     "site_table",
@@ -111,6 +112,25 @@ def _cores_per_unit(scenario: Scenario, name: str) -> int:
     topo = scenario.topology_for(arch)
     cable = topo.cables[0]
     return unit_geometry(arch, topo.fiber_types[cable.fiber_type], scenario.transceiver.lane_gbps).cores_per_unit
+
+
+def add_module_columns(summary: pd.DataFrame, modules: dict) -> pd.DataFrame:
+    """Transceiver power and MIMO DSP load columns (``modules``: architecture -> ModuleFigures).
+
+    ``transceiver_power_w_peak`` = peak modules x power of one module sized for the worst
+    feasible route; ``mimo_cmul_per_bit`` uses the frequency-domain (overlap-save) equalizer,
+    ``mimo_cmul_per_bit_time_domain`` the time-domain one (:mod:`sdmnet.physics`).
+    """
+    out = summary.copy()
+    fig = [modules[name] for name in out["architecture"]]
+    out["module_lanes"] = [m.lanes for m in fig]
+    out["mimo_size"] = [m.mimo_size for m in fig]
+    out["mimo_taps"] = [m.mimo_taps for m in fig]
+    out["module_power_w"] = [m.power_w for m in fig]
+    out["transceiver_power_w_peak"] = out["transceivers_peak"] * out["module_power_w"]
+    out["mimo_cmul_per_bit"] = [m.cmul_per_bit_frequency for m in fig]
+    out["mimo_cmul_per_bit_time_domain"] = [m.cmul_per_bit_time for m in fig]
+    return out
 
 
 def class_table(points: Sequence[PointSummary], setups: dict[str, EngineSetup]) -> pd.DataFrame:

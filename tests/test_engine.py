@@ -51,7 +51,7 @@ ERLANG_POINTS = [(5, 2.0), (10, 5.0), (10, 7.0), (20, 12.0)]
 def test_single_core_lane_demands_block_as_erlang_b(servers, load):
     # One cable, single-core fiber, every demand one lane, independent switching:
     # C = fiber_pairs x channels servers (MODEL.md section 3).
-    fiber = fiber_type(cores=1, channels=servers // 1)
+    fiber = fiber_type(cores=1, channels=servers)
     arch = Architecture("ind", "independent")
     sc = scenario(single_cable(fiber), [arch], loads=(load,), sizes=((100.0, 1.0),), lane_gbps=100.0)
     records = _simulate(sc, arch, load, replications=10, requests=20_000)
@@ -156,9 +156,11 @@ def test_drained_replication_ends_empty_and_counts_add_up():
         sc = scenario(chain(fiber, 2, fiber_pairs=2), [arch], loads=(12.0,), sizes=((100.0, 0.5), (250.0, 0.5)))
         setup = prepare(sc, arch, shortest_routes)
         events = {"book": 0, "release": 0, "block": 0}
-        rec = simulate_replication(
-            setup, 12.0, 3, 0, 3000, 0, drain=True, observer=lambda kind, _p: events.__setitem__(kind, events[kind] + 1)
-        )
+
+        def count(kind, _payload, events=events):
+            events[kind] += 1
+
+        rec = simulate_replication(setup, 12.0, 3, 0, 3000, 0, drain=True, observer=count)
         assert rec.ended_empty is True
         assert events["book"] == events["release"]
         assert events["book"] + events["block"] == 3000 == rec.requests

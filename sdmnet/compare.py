@@ -1,0 +1,83 @@
+"""Analytic estimate beside the simulation: where they disagree and which assumption breaks.
+
+The estimate (:mod:`sdmnet.estimate`) treats every cable as a complete-sharing group of units,
+offers each pair one route, ignores grooming, and couples cables by the Erlang fixed point,
+which assumes that cables block independently.  When the estimate falls outside the simulated
+interval, :func:`explain_gap` names the assumptions that the scenario violates in the direction
+of the gap (see docs/estimate.md).
+"""
+
+from __future__ import annotations
+
+import math
+
+import pandas as pd
+
+from .engine import EngineSetup
+from .model import Scenario
+
+__all__ = ["attach_estimate", "explain_gap"]
+
+
+def explain_gap(scenario: Scenario, setup: EngineSetup, estimate: float, low: float, high: float) -> str:
+    """Why the estimate may lie above or below the simulated interval ``[low, high]``.
+
+    Returns an empty string when the estimate lies inside the interval (or no interval exists).
+    """
+    if math.isnan(low) or math.isnan(high) or low <= estimate <= high:
+        return ""
+    arch = setup.architecture
+    multi_hop = any(len(r[0]) > 1 for r in setup.routes if r)
+    alternates = any(len(r) > 1 for r in setup.routes)
+    reasons = []
+    if estimate > high:
+        if multi_hop:
+            reasons.append(
+                "link independence: the fixed point treats the cables of a route as blocking "
+                "independently, which overestimates on cables in series carrying the same traffic"
+            )
+        if alternates:
+            reasons.append("alternate routing: the estimate offers each pair its first route only")
+        if arch.share:
+            reasons.append("grooming: spare capacity of lit units carries later demands in the simulation")
+    else:
+        if multi_hop and not setup.whole_fiber:
+            what = "the same channel" if arch.lane_change else "the same channel and core group"
+            reasons.append(
+                f"continuity: the estimate lets a unit take any free position on each cable, the "
+                f"simulation needs {what} end to end"
+            )
+        if multi_hop and setup.whole_fiber:
+            reasons.append("fiber continuity: a lit fiber must be free on every cable of the route at once")
+    if not reasons:
+        reasons.append("no modelling assumption identified: sampling error or a too short warm-up")
+    return "; ".join(reasons)
+
+
+def attach_estimate(
+    summary: pd.DataFrame, estimate: pd.DataFrame, scenario: Scenario, setups: dict[str, EngineSetup]
+) -> pd.DataFrame:
+    """``summary`` with ``estimate_blocking``, ``estimate_bandwidth_blocking``,
+    ``estimate_outside_interval`` and ``estimate_gap`` columns (matched on architecture and load)."""
+    est = estimate.set_index(["architecture", "load_erlang"])
+    out = summary.copy()
+    blocking, bandwidth, outside, notes = [], [], [], []
+    for row in summary.itertuples(index=False):
+        key = (row.architecture, row.load_erlang)
+        if key in est.index:
+            b = float(est.loc[key, "blocking"])
+            bw = float(est.loc[key, "bandwidth_blocking"])
+        else:
+            b = bw = math.nan
+        note = "" if math.isnan(b) else explain_gap(
+            scenario, setups[row.architecture], b, row.blocking_ci_low, row.blocking_ci_high
+        )
+        blocking.append(b)
+        bandwidth.append(bw)
+        outside.append(bool(note))
+        notes.append(note)
+    out["estimate_blocking"] = blocking
+    out["estimate_bandwidth_blocking"] = bandwidth
+    out["estimate_outside_interval"] = outside
+    out["estimate_gap"] = notes
+    return out

@@ -1,0 +1,173 @@
+"""Default physical figures, each with where it comes from.
+
+Every constant names its source beside it.  Provenance labels:
+
+- **verified**: the figure was read in a public document during development (named);
+- **from memory**: recalled from the literature or a standard, not re-read; check before relying
+  on it for anything but planning studies;
+- **assumption**: a planning choice with no published source (common practice or our own).
+
+ITU-T table limits (G.652.D, G.654.E) are kept here too, so tests can check that the default
+fiber figures lie inside them.
+"""
+
+from __future__ import annotations
+
+import math
+
+__all__ = [
+    "G652D_TABLE",
+    "G652D_MAX_ATTENUATION_1550_DB_PER_KM",
+    "G652D_MAX_ATTENUATION_1310_1625_DB_PER_KM",
+    "G654E_TABLE",
+    "G654E_MAX_ATTENUATION_1550_DB_PER_KM",
+    "ATTENUATION_G652D_DB_PER_KM",
+    "ATTENUATION_G654E_DB_PER_KM",
+    "ATTENUATION_COUPLED_CORE_MCF_DB_PER_KM",
+    "GD_SPREAD_RANDOM_PS_PER_SQRT_KM",
+    "MDL_RANDOM_DB_PER_SQRT_KM",
+    "CROSSTALK_WEAK_DB_PER_KM",
+    "CROSSTALK_WEAK_MEASURED_DB",
+    "CROSSTALK_WEAK_MEASURED_KM",
+    "LANE_GBPS",
+    "LINE_RATE_GBPS",
+    "SYMBOL_RATE_GBAUD",
+    "POLARIZATIONS",
+    "REACH_KM",
+    "POWER_BUDGET_DB",
+    "CROSSTALK_LIMIT_DB",
+    "MDL_LIMIT_DB",
+    "SAMPLES_PER_SYMBOL",
+    "MIMO_BASE_TAPS",
+    "TAP_MARGIN",
+    "MAX_MIMO_TAPS",
+    "MODULE_POWER_W",
+    "MIMO_PJ_PER_CMUL",
+    "SWITCH_INSERTION_LOSS_DB",
+    "CONNECTOR_LOSS_DB",
+    "CONNECTORS_PER_CABLE",
+    "SPLICE_LOSS_DB",
+    "SPLICE_SPACING_KM",
+]
+
+# --------------------------------------------------------------------------------------------
+# ITU-T limits on cabled-fiber attenuation (the defaults below must lie within them)
+# --------------------------------------------------------------------------------------------
+
+# ITU-T G.652 (11/2016), clause 7 tables, Table 2 "G.652.D attributes" (Table 4 in the 11/2009
+# edition), cable attributes.  Table name and numbering verified (ITU-T G.652 11/2016 summary
+# page); the values are from memory.
+G652D_TABLE = "ITU-T G.652 (11/2016) Table 2 'G.652.D attributes', cable attributes (clause 6.1 / 7)"
+G652D_MAX_ATTENUATION_1310_1625_DB_PER_KM = 0.40  # from memory
+G652D_MAX_ATTENUATION_1550_DB_PER_KM = 0.30  # from memory
+
+# ITU-T G.654 (03/2020), clause 7.1 "Attenuation coefficient" (cable attribute) and clause 8
+# "Recommended value tables", G.654.E table.  Clause numbers verified (ITU-T G.654 03/2020 table
+# of contents); the value is from memory.
+G654E_TABLE = "ITU-T G.654 (03/2020) clause 8 recommended value tables, G.654.E attributes (clause 7.1)"
+G654E_MAX_ATTENUATION_1550_DB_PER_KM = 0.23  # from memory
+
+# --------------------------------------------------------------------------------------------
+# Default fiber attenuation at 1550 nm (cabled)
+# --------------------------------------------------------------------------------------------
+
+# G.652.D-like cable: verified, YOFC FullBand G.652.D aerial cable datasheet, "valor maximo"
+# 0.22 dB/km at 1550 nm (another vendor cable sheet gives <= 0.20 dB/km).
+ATTENUATION_G652D_DB_PER_KM = 0.22
+
+# G.654.E-like cable: verified, 0.166 dB/km in the G.654.E parameter set of IWCS webinar 85
+# (Corning, as reproduced in a public repository) and 0.168 dB/km for the G.654.E reference span
+# of a published hollow-core-fiber experiment; rounded up to 0.17.
+ATTENUATION_G654E_DB_PER_KM = 0.17
+
+# Randomly coupled 4-core fiber, 125 um cladding: verified, 0.158 dB/km at 1550 nm (Sumitomo
+# Electric announcement of T. Hayashi et al., "Record-low spatial mode dispersion and ultra-low
+# loss coupled multi-core fiber for ultra-long-haul transmission", JLT 35(3), 2017).
+ATTENUATION_COUPLED_CORE_MCF_DB_PER_KM = 0.158
+
+# --------------------------------------------------------------------------------------------
+# Coupling figures of multicore fiber
+# --------------------------------------------------------------------------------------------
+
+# Spatial-mode-dispersion (RMS group-delay spread) coefficient of randomly coupled MCF:
+# verified, 6.1 ps/sqrt(km) over 1520-1580 nm, same fiber and source as above.
+GD_SPREAD_RANDOM_PS_PER_SQRT_KM = 6.1
+
+# Mode-dependent-loss coefficient of randomly coupled fiber.  The sqrt(L) law in the
+# small-MDL regime is from K.-P. Ho and J. M. Kahn, "Mode-dependent loss and gain: statistics
+# and effect on mode-division multiplexing", Opt. Express 19(17), 2011 (arXiv 1108.4488).
+# The coefficient is an assumption (no published per-sqrt(km) figure verified): 0.05 dB/sqrt(km)
+# gives 0.5 dB after 100 km, small next to fan-in/fan-out and amplifier MDL.
+MDL_RANDOM_DB_PER_SQRT_KM = 0.05
+
+# Weakly coupled (trench-assisted) 7-core fiber: verified, T. Hayashi et al., "Uncoupled
+# multi-core fiber enhancing signal-to-noise ratio", Opt. Express 20(26) B94, 2012: total mean
+# crosstalk to the centre core -53 dB after 6.99 km ("equivalent to -42.5 dB after 80 km").
+CROSSTALK_WEAK_MEASURED_DB = -53.0
+CROSSTALK_WEAK_MEASURED_KM = 6.99
+# Referred to 1 km with the linear-in-power growth (10 log10 L): -61.4 dB.
+CROSSTALK_WEAK_DB_PER_KM = CROSSTALK_WEAK_MEASURED_DB - 10.0 * math.log10(CROSSTALK_WEAK_MEASURED_KM)
+
+# --------------------------------------------------------------------------------------------
+# Coherent DCI transceiver (400ZR class)
+# --------------------------------------------------------------------------------------------
+
+# 400 Gb/s single-carrier coherent lane: verified, OIF 400ZR project page ("single-carrier 400G,
+# coherent detection").
+LANE_GBPS = 400.0
+# Line rate with FEC and framing: verified, 478.75 Gb/s DP-16QAM in a vendor 400G 80 km
+# QSFP-DD datasheet (Huawei 02313LHH).
+LINE_RATE_GBPS = 478.75
+POLARIZATIONS = 2
+# Symbol rate = line rate / (2 polarizations x 4 bit of 16QAM) = 59.84 GBd; derived from the
+# verified line rate (the OIF 400ZR figure of 59.84375 GBd is from memory and agrees).
+SYMBOL_RATE_GBAUD = LINE_RATE_GBPS / (POLARIZATIONS * 4)
+# Reach: verified, OIF 400ZR project page, "amplified DWDM applications with distances up to 120 km".
+REACH_KM = 120.0
+# Loss budget: verified, the same vendor datasheet: single-span links with loss below 22 dB
+# ("standard-defined") need only a booster amplifier and no site survey.  Longer or lossier
+# paths need preamplifiers or amplified switching sites; set power_budget_db in the scenario.
+POWER_BUDGET_DB = 22.0
+# Inter-core crosstalk tolerated by DP-16QAM for about 1 dB penalty: from memory (P. J. Winzer
+# et al., "Penalties from in-band crosstalk for advanced optical modulation formats", ECOC 2011).
+CROSSTALK_LIMIT_DB = -24.0
+# Highest path MDL accepted: assumption (planning choice, no source).
+MDL_LIMIT_DB = 6.0
+# Module power of a 400ZR QSFP-DD/OSFP pluggable: from memory (about 15 W; a vendor 400ZR+
+# datasheet verified at 21 W typical, a 400ZR module draws less).
+MODULE_POWER_W = 15.0
+
+# --------------------------------------------------------------------------------------------
+# DSP
+# --------------------------------------------------------------------------------------------
+
+# T/2 fractionally spaced equalizer: common practice, no source.
+SAMPLES_PER_SYMBOL = 2.0
+# Taps of the per-lane 2x2 polarization equalizer for residual chromatic dispersion, PMD and
+# transceiver filtering (the bulk CD is removed by a static equalizer first): from memory.
+MIMO_BASE_TAPS = 15
+# Equalizer window in units of the RMS group-delay spread.  Under strong coupling the group
+# delays of many modes follow a semicircle law of radius 2 sigma (Ho & Kahn, JLT 2011), so the
+# impulse response is about 4 sigma wide: from memory.
+TAP_MARGIN = 4.0
+# Longest equalizer a DSP offers: assumption (planning choice, no source).
+MAX_MIMO_TAPS = 256
+# Energy of one complex multiplication in the MIMO equalizer (multiplier, adders and memory
+# access): assumption, order of magnitude for 7 nm CMOS, no source.
+MIMO_PJ_PER_CMUL = 0.5
+
+# --------------------------------------------------------------------------------------------
+# Passive losses
+# --------------------------------------------------------------------------------------------
+
+# One pass through a 1xN wavelength-selective switch at an intermediate site: from memory
+# (typical datasheet insertion loss 5-7 dB).
+SWITCH_INSERTION_LOSS_DB = 6.0
+# One mated connector pair: from memory (0.5 dB typical planning value; TIA-568 allows 0.75 dB).
+CONNECTOR_LOSS_DB = 0.5
+# Connectors per cable: one patch at each end (common practice, no source).
+CONNECTORS_PER_CABLE = 2
+# One fusion splice: from memory (0.1 dB typical; TIA-568 allows 0.3 dB).
+SPLICE_LOSS_DB = 0.1
+# Cable sections between splices (reel length): from memory (4-6 km typical).
+SPLICE_SPACING_KM = 5.0

@@ -1,0 +1,969 @@
+"""Read topologies (TOML or GraphML) and scenarios (TOML plus an optional CSV matrix).
+
+Every problem with a file raises :class:`~sdmnet.errors.InputError` whose text is
+``FILE: WHERE: what``.  ``WHERE`` is a key path into the file:
+
+- ``cables[3].length_km``: a value (array indices count from 0, in file order);
+- ``cables[3]``: a table, for unknown or missing keys (``top level`` for the root);
+- ``node[A].role`` / ``edge[A,B].length_km``: GraphML nodes and edges, by site id;
+- ``line 4, column 7`` for TOML syntax, ``line 4`` for a CSV row.
+
+Choices this module makes (the file contract is in MODEL.md section 5):
+
+- ``coupled_group`` defaults to 1 for weak coupling (and must be 1 there: weakly coupled
+  cores are isolated) and to ``cores`` for random coupling (the whole fiber is one coupled
+  group); it must divide ``cores``.
+- ``fiber_pairs`` must be >= 1: a cable without fiber is left out of the file instead.
+- Site ids must not contain ``-``, which joins ids in cable keys (``a-b``) and path labels.
+- ``name`` defaults to the file stem; ``seed`` defaults to 1.
+- An integer is accepted where a number is expected; a boolean is never a number.
+- GraphML attribute values declared as strings are converted when a number or boolean is
+  expected (graph editors often write every attribute as a string); TOML is taken as typed.
+- ``group`` is refused on an architecture whose switching is not ``fractional-joint``.
+
+Keys of fiber types, the transceiver, run, plan, forecast and architectures are driven by
+:func:`dataclasses.fields` of the model classes, so a field added to the model is read with no
+change here (type from its annotation, required when it has no default).
+"""
+
+from __future__ import annotations
+
+import csv
+import difflib
+import io
+import math
+import re
+import types
+import typing
+import warnings
+import xml.etree.ElementTree as ET
+from collections.abc import Callable, Iterable, Mapping
+from dataclasses import MISSING, dataclass, fields
+from pathlib import Path
+from typing import Any, Literal, NoReturn, get_args, get_origin, get_type_hints
+
+import networkx as nx
+
+from .architectures import why_not_allowed
+from .errors import ConfigurationError, InputError
+from .model import (
+    Architecture,
+    Cable,
+    FiberType,
+    ForecastSpec,
+    PlanSpec,
+    RunSpec,
+    Scenario,
+    Site,
+    Topology,
+    TrafficSpec,
+    TransceiverSpec,
+)
+
+try:  # Python 3.11+
+    import tomllib
+except ModuleNotFoundError:  # pragma: no cover - Python 3.10 with the tomli backport
+    import tomli as tomllib  # type: ignore[no-redef]
+
+__all__ = ["load_topology", "load_scenario", "load_any", "overridable_keys", "COMMAND_LINE"]
+
+#: The ``file`` of an error caused by an override (a command-line option).
+COMMAND_LINE = "<command line>"
+
+GRAPHML_SUFFIXES = (".graphml", ".xml")
+TOP = "top level"
+
+TOPOLOGY_KEYS = ("name", "fiber_types", "sites", "cables")
+SCENARIO_KEYS = (
+    "name",
+    "topology",
+    "seed",
+    "traffic",
+    "transceiver",
+    "run",
+    "architectures",
+    "plan",
+    "forecast",
+)
+TRAFFIC_KEYS = ("pattern", "load_erlang", "mean_holding", "sizes_gbps", "matrix")
+UNIT_COST_KEYS = ("fiber_pair_km", "transceiver_lane", "switch_port")
+SIZE_PROBABILITY_TOLERANCE = 1e-6
+
+
+# ----------------------------------------------------------------------------------------------
+# Where the errors go
+
+
+@dataclass(frozen=True)
+class _Doc:
+    """The file being read: names it in errors, and says how strictly values are typed."""
+
+    file: str
+    strings_convert: bool = False  # GraphML: "12.5" may stand for a number
+
+    def fail(self, where: str, what: str) -> NoReturn:
+        raise InputError(self.file, where, what)
+
+
+def _at(where: str, key: str) -> str:
+    """Key path ``where.key`` (``key`` alone at the top level)."""
+    return key if where in ("", TOP) else f"{where}.{key}"
+
+
+def _suggest(word: str, known: Iterable[str]) -> str:
+    """`` (did you mean 'x'?)`` for the nearest known word, or ``(known: ...)`` if none is near."""
+    known = list(known)
+    close = difflib.get_close_matches(word, known, n=1)
+    if close:
+        return f" (did you mean '{close[0]}'?)"
+    return f" (known: {', '.join(known)})" if known else ""
+
+
+def _show(value: Any) -> str:
+    """A value as a user wrote it, with its kind, for 'got ...' messages."""
+    if isinstance(value, bool):
+        return f"boolean {str(value).lower()}"
+    if isinstance(value, str):
+        return f"string '{value}'"
+    if isinstance(value, int):
+        return f"integer {value}"
+    if isinstance(value, float):
+        return f"number {value!r}"
+    if isinstance(value, Mapping):
+        return "a table"
+    if isinstance(value, list | tuple):
+        return "a list"
+    return f"{type(value).__name__} {value}"
+
+
+def _check_keys(doc: _Doc, where: str, table: Mapping[str, Any], known: Iterable[str]) -> None:
+    """Refuse keys of ``table`` that are not in ``known``, suggesting the nearest one."""
+    known = list(known)
+    for key in table:
+        if key not in known:
+            doc.fail(where, f"unknown key '{key}'{_suggest(key, known)}")
+
+
+def _table(doc: _Doc, where: str, value: Any) -> Mapping[str, Any]:
+    if not isinstance(value, Mapping):
+        doc.fail(where, f"expected a table, got {_show(value)}")
+    return value
+
+
+def _list_of_tables(doc: _Doc, where: str, value: Any) -> list[Mapping[str, Any]]:
+    if not isinstance(value, list):
+        doc.fail(where, f"expected an array of tables ([[{where}]]), got {_show(value)}")
+    for i, item in enumerate(value):
+        _table(doc, f"{where}[{i}]", item)
+    return value
+
+
+# ----------------------------------------------------------------------------------------------
+# Values: conversion by type annotation, then limits by field
+
+
+def _as_bool(doc: _Doc, where: str, value: Any) -> bool:
+    if isinstance(value, bool):
+        return value
+    if doc.strings_convert and isinstance(value, str) and value.strip().lower() in ("true", "false"):
+        return value.strip().lower() == "true"
+    doc.fail(where, f"expected true or false, got {_show(value)}")
+
+
+def _as_int(doc: _Doc, where: str, value: Any) -> int:
+    if isinstance(value, int) and not isinstance(value, bool):
+        return value
+    if doc.strings_convert and isinstance(value, str) and re.fullmatch(r"\s*[+-]?\d+\s*", value):
+        return int(value)
+    if isinstance(value, float) and value.is_integer():
+        doc.fail(where, f"expected an integer, got {_show(value)} (write it without a decimal point)")
+    doc.fail(where, f"expected an integer, got {_show(value)}")
+
+
+def _as_float(doc: _Doc, where: str, value: Any) -> float:
+    raw = value
+    if doc.strings_convert and isinstance(value, str):
+        try:
+            value = float(value)
+        except ValueError:
+            doc.fail(where, f"expected a number, got {_show(raw)}")
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        doc.fail(where, f"expected a number, got {_show(raw)}")
+    try:
+        number = float(value)
+    except OverflowError:
+        doc.fail(where, f"number too large, got {_show(raw)}")
+    if not math.isfinite(number):
+        doc.fail(where, f"expected a finite number, got {_show(raw)}")
+    return number
+
+
+def _as_str(doc: _Doc, where: str, value: Any) -> str:
+    if not isinstance(value, str):
+        doc.fail(where, f"expected a string, got {_show(value)}")
+    return value
+
+
+def _as_choice(doc: _Doc, where: str, value: Any, choices: tuple[str, ...]) -> str:
+    text = _as_str(doc, where, value)
+    if text not in choices:
+        options = ", ".join(f"'{c}'" for c in choices)
+        close = difflib.get_close_matches(text, choices, n=1)
+        hint = f" (did you mean '{close[0]}'?)" if close else ""
+        doc.fail(where, f"must be one of {options}, got '{text}'{hint}")
+    return text
+
+
+def _convert(doc: _Doc, where: str, value: Any, hint: Any) -> Any:
+    """Check ``value`` against the type annotation ``hint`` and return it in that type."""
+    origin = get_origin(hint)
+    if origin in (typing.Union, types.UnionType):
+        # TOML has no null, so "X | None" reads as X (None is only the default).
+        options = [a for a in get_args(hint) if a is not type(None)]
+        if len(options) == 1:
+            return _convert(doc, where, value, options[0])
+        doc.fail(where, "unsupported value type")  # pragma: no cover - no such field in the model
+    if origin is Literal:
+        return _as_choice(doc, where, value, tuple(str(a) for a in get_args(hint)))
+    if origin is tuple:
+        args = get_args(hint)
+        if len(args) == 2 and args[1] is Ellipsis:
+            if not isinstance(value, list):
+                doc.fail(where, f"expected a list, got {_show(value)}")
+            return tuple(_convert(doc, f"{where}[{i}]", v, args[0]) for i, v in enumerate(value))
+    if origin is dict:
+        key_type, value_type = get_args(hint)
+        table = _table(doc, where, value)
+        return {str(k): _convert(doc, _at(where, str(k)), v, value_type) for k, v in table.items()}
+    if hint is bool:
+        return _as_bool(doc, where, value)
+    if hint is int:
+        return _as_int(doc, where, value)
+    if hint is float:
+        return _as_float(doc, where, value)
+    if hint is str:
+        return _as_str(doc, where, value)
+    doc.fail(where, "unsupported value type")  # pragma: no cover - no such field in the model
+
+
+Limit = Callable[[Any], "str | None"]
+
+
+def _greater(bound: float) -> Limit:
+    return lambda v: None if v > bound else f"must be > {bound:g}, got {v!r}"
+
+
+def _at_least(bound: float) -> Limit:
+    return lambda v: None if v >= bound else f"must be >= {bound:g}, got {v!r}"
+
+
+def _below(bound: float) -> Limit:
+    return lambda v: None if v < bound else f"must be < {bound:g}, got {v!r}"
+
+
+def _inside_unit(v: float) -> str | None:
+    return None if 0 < v < 1 else f"must be between 0 and 1 (exclusive), got {v!r}"
+
+
+def _each(limit: Limit) -> Limit:
+    def check(values: Any) -> str | None:
+        items = values.values() if isinstance(values, Mapping) else values
+        for item in items:
+            problem = limit(item)
+            if problem:
+                return problem
+        return None
+
+    return check
+
+
+# Limits per (class, field).  A field not listed here (say one added to TransceiverSpec later)
+# is checked for its type and, for numbers, finiteness only.
+LIMITS: dict[tuple[type, str], Limit] = {
+    (FiberType, "cores"): _at_least(1),
+    (FiberType, "coupled_group"): _at_least(1),
+    (FiberType, "channels"): _at_least(1),
+    (FiberType, "attenuation_db_per_km"): _at_least(0),
+    (FiberType, "gd_spread_ps_per_sqrt_km"): _at_least(0),
+    (FiberType, "dgd_ps_per_km"): _at_least(0),
+    (FiberType, "crosstalk_db_per_km"): _below(0),
+    (FiberType, "mdl_db_per_sqrt_km"): _at_least(0),
+    (Site, "traffic_weight"): _at_least(0),
+    (Cable, "length_km"): _greater(0),
+    (Cable, "fiber_pairs"): _at_least(1),
+    (TransceiverSpec, "lane_gbps"): _greater(0),
+    (TransceiverSpec, "symbol_rate_gbaud"): _greater(0),
+    (TransceiverSpec, "samples_per_symbol"): _greater(0),
+    (TransceiverSpec, "reach_km"): _greater(0),
+    (TransceiverSpec, "power_budget_db"): _greater(0),
+    (TransceiverSpec, "max_mimo_taps"): _at_least(1),
+    (TransceiverSpec, "crosstalk_limit_db"): _below(0),
+    (TransceiverSpec, "mdl_limit_db"): _at_least(0),
+    (TransceiverSpec, "module_power_w"): _at_least(0),
+    (TransceiverSpec, "mimo_pj_per_cmul"): _at_least(0),
+    (TransceiverSpec, "switch_insertion_loss_db"): _at_least(0),
+    (TransceiverSpec, "connector_loss_db"): _at_least(0),
+    (TransceiverSpec, "splice_loss_db"): _at_least(0),
+    (TransceiverSpec, "splice_spacing_km"): _greater(0),
+    (TransceiverSpec, "mimo_base_taps"): _at_least(0),
+    (TransceiverSpec, "tap_margin"): _greater(0),
+    (RunSpec, "requests"): _at_least(1),
+    (RunSpec, "warmup"): _at_least(0),
+    (RunSpec, "replications"): _at_least(1),
+    (RunSpec, "k_paths"): _at_least(1),
+    (RunSpec, "confidence"): _inside_unit,
+    (Architecture, "group"): _at_least(1),
+    (PlanSpec, "target_blocking"): _inside_unit,
+    (PlanSpec, "max_fiber_pairs"): _at_least(1),
+    (PlanSpec, "unit_costs"): _each(_at_least(0)),
+    (ForecastSpec, "years"): _at_least(1),
+    (ForecastSpec, "growth_per_year"): _greater(-1),
+    (ForecastSpec, "factors"): _each(_greater(0)),
+}
+
+
+def _hints(cls: type) -> dict[str, Any]:
+    return get_type_hints(cls)
+
+
+def _read_fields(
+    doc: _Doc,
+    where: str,
+    table: Mapping[str, Any],
+    cls: type,
+    *,
+    exclude: Iterable[str] = (),
+    optional: Iterable[str] = (),
+    also_known: Iterable[str] = (),
+) -> dict[str, Any]:
+    """Read the keys of ``table`` as fields of the dataclass ``cls``.
+
+    Unknown keys are refused; each present key is converted by its annotation and checked
+    against :data:`LIMITS`; a field with no default that is absent is an error unless it is
+    in ``optional``.  Returns only the keys present (the dataclass fills in its defaults).
+    ``also_known`` keys are accepted and ignored.
+    """
+    exclude = set(exclude)
+    optional = set(optional)
+    specs = [f for f in fields(cls) if f.name not in exclude]
+    _check_keys(doc, where, table, [f.name for f in specs] + list(also_known))
+    hints = _hints(cls)
+    values: dict[str, Any] = {}
+    for spec in specs:
+        key_where = _at(where, spec.name)
+        if spec.name in table:
+            value = _convert(doc, key_where, table[spec.name], hints[spec.name])
+            limit = LIMITS.get((cls, spec.name))
+            problem = limit(value) if limit else None
+            if problem:
+                doc.fail(key_where, problem)
+            values[spec.name] = value
+        elif spec.default is MISSING and spec.default_factory is MISSING and spec.name not in optional:
+            doc.fail(where, f"missing required key '{spec.name}'")
+    return values
+
+
+# ----------------------------------------------------------------------------------------------
+# Files
+
+
+def _read_bytes(path: Path, owner: _Doc | None = None, key: str = "file") -> bytes:
+    """The bytes of ``path``; a missing file is blamed on ``owner``'s ``key`` when given."""
+    doc = owner or _Doc(str(path))
+    try:
+        return path.read_bytes()
+    except FileNotFoundError:
+        doc.fail(key, f"file not found: {path}")
+    except IsADirectoryError:
+        doc.fail(key, f"is a directory, not a file: {path}")
+    except OSError as err:
+        doc.fail(key, f"cannot read {path}: {err.strerror or err}")
+
+
+def _decode(doc: _Doc, data: bytes) -> str:
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as err:
+        doc.fail(f"byte {err.start}", "not UTF-8 text")
+
+
+_TOML_POSITION = re.compile(r"^(?P<what>.*) \(at (?:line (?P<line>\d+), column (?P<col>\d+)|end of document)\)$")
+
+
+def _parse_toml(path: Path) -> dict[str, Any]:
+    doc = _Doc(str(path))
+    text = _decode(doc, _read_bytes(path))
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        message = str(err)
+        match = _TOML_POSITION.match(message)
+        if match is None:
+            doc.fail("TOML", message)
+        what = match["what"]
+        what = what[:1].lower() + what[1:]
+        where = f"line {match['line']}, column {match['col']}" if match["line"] else "end of file"
+        doc.fail(where, f"invalid TOML: {what}")
+
+
+def _resolve(base_file: Path, value: str) -> Path:
+    """``value`` as a path relative to the directory of ``base_file`` (absolute paths stay)."""
+    path = Path(value).expanduser()
+    return path if path.is_absolute() else base_file.parent / path
+
+
+# ----------------------------------------------------------------------------------------------
+# Topology
+
+
+@dataclass
+class _RawTopology:
+    """A topology file before validation, the same for TOML and GraphML.
+
+    Each entry pairs the key path used in messages with the table read from the file.
+    """
+
+    name: Any
+    fiber_types: list[tuple[str, str, Mapping[str, Any]]]  # (type name, where, table)
+    sites: list[tuple[str, Mapping[str, Any]]]
+    cables: list[tuple[str, Mapping[str, Any]]]
+
+
+def _fiber_type(doc: _Doc, name: str, where: str, table: Mapping[str, Any]) -> FiberType:
+    values = _read_fields(doc, where, table, FiberType, exclude=("name",), optional=("coupled_group",))
+    cores = values["cores"]
+    if values["coupling"] == "weak":
+        group = values.setdefault("coupled_group", 1)
+        if group != 1:
+            doc.fail(
+                _at(where, "coupled_group"),
+                f"weakly coupled cores are isolated, so coupled_group must be 1, got {group}",
+            )
+    else:
+        group = values.setdefault("coupled_group", cores)
+        if cores % group:
+            doc.fail(_at(where, "coupled_group"), f"coupled_group {group} does not divide the {cores} cores")
+    return FiberType(name=name, **values)
+
+
+def _site(doc: _Doc, where: str, table: Mapping[str, Any]) -> Site:
+    values = _read_fields(doc, where, table, Site)
+    site_id = values["id"]
+    if not site_id.strip():
+        doc.fail(_at(where, "id"), "site id is empty")
+    if "-" in site_id:
+        doc.fail(_at(where, "id"), f"site id '{site_id}' contains '-', which joins site ids in cable and path names")
+    if ("x_km" in values) != ("y_km" in values):
+        given, absent = ("x_km", "y_km") if "x_km" in values else ("y_km", "x_km")
+        doc.fail(where, f"{given} is given without {absent}")
+    return Site(**values)
+
+
+def _build_topology(doc: _Doc, raw: _RawTopology, source: Path) -> Topology:
+    name = source.stem if raw.name is None else _as_str(doc, "name", raw.name)
+
+    if not raw.fiber_types:
+        doc.fail("fiber_types", "no fiber types: define at least one [fiber_types.NAME]")
+    fiber_types = {n: _fiber_type(doc, n, w, t) for n, w, t in raw.fiber_types}
+
+    sites: list[Site] = []
+    first_where: dict[str, str] = {}
+    for where, table in raw.sites:
+        site = _site(doc, where, table)
+        if site.id in first_where:
+            doc.fail(_at(where, "id"), f"duplicate site id '{site.id}' (also {first_where[site.id]})")
+        first_where[site.id] = where
+        sites.append(site)
+
+    cables: list[Cable] = []
+    seen: dict[frozenset[str], str] = {}
+    for where, table in raw.cables:
+        values = _read_fields(doc, where, table, Cable)
+        for end in ("a", "b"):
+            if values[end] not in first_where:
+                doc.fail(_at(where, end), f"unknown site '{values[end]}'{_suggest(values[end], first_where)}")
+        if values["a"] == values["b"]:
+            doc.fail(_at(where, "b"), f"cable joins site '{values['a']}' to itself")
+        if values["fiber_type"] not in fiber_types:
+            doc.fail(
+                _at(where, "fiber_type"),
+                f"unknown fiber type '{values['fiber_type']}'{_suggest(values['fiber_type'], fiber_types)}",
+            )
+        pair = frozenset((values["a"], values["b"]))
+        if pair in seen:
+            doc.fail(
+                where,
+                f"second cable between '{values['a']}' and '{values['b']}' (first is {seen[pair]}); "
+                "give one cable more fiber_pairs instead",
+            )
+        seen[pair] = where
+        cables.append(Cable(**values))
+
+    topology = Topology(name=name, fiber_types=fiber_types, sites=tuple(sites), cables=tuple(cables), source=source)
+    _check_datacenters_connected(doc, topology)
+    return topology
+
+
+def _check_datacenters_connected(doc: _Doc, topology: Topology) -> None:
+    datacenters = topology.datacenters
+    if len(datacenters) < 2:
+        doc.fail("sites", f"a topology needs at least two datacenter sites, found {len(datacenters)}")
+    component = {}
+    for number, nodes in enumerate(nx.connected_components(topology.graph())):
+        component.update(dict.fromkeys(nodes, number))
+    for i, a in enumerate(datacenters):
+        for b in datacenters[i + 1 :]:
+            if component[a.id] != component[b.id]:
+                doc.fail("cables", f"no path between datacenters '{a.id}' and '{b.id}'")
+
+
+def _raw_topology_from_toml(doc: _Doc, data: Mapping[str, Any]) -> _RawTopology:
+    _check_keys(doc, TOP, data, TOPOLOGY_KEYS)
+    for key in ("fiber_types", "sites", "cables"):
+        if key not in data:
+            doc.fail(TOP, f"missing required key '{key}'")
+    types_table = _table(doc, "fiber_types", data["fiber_types"])
+    fiber_types = [(n, f"fiber_types.{n}", _table(doc, f"fiber_types.{n}", t)) for n, t in types_table.items()]
+    sites = _list_of_tables(doc, "sites", data["sites"])
+    cables = _list_of_tables(doc, "cables", data["cables"])
+    return _RawTopology(
+        name=data.get("name"),
+        fiber_types=fiber_types,
+        sites=[(f"sites[{i}]", t) for i, t in enumerate(sites)],
+        cables=[(f"cables[{i}]", t) for i, t in enumerate(cables)],
+    )
+
+
+_GRAPHML_NS = "{http://graphml.graphdrawing.org/xmlns}"
+
+
+def _raw_topology_from_graphml(doc: _Doc, path: Path) -> _RawTopology:
+    data = _read_bytes(path)
+    # Parse once ourselves: for the position of XML errors, and for the edge order of the
+    # document (networkx reports edges grouped by node, and cable order matters in reports).
+    try:
+        root = ET.fromstring(data)
+    except ET.ParseError as err:
+        line, column = err.position
+        what = re.sub(r":? line \d+, column \d+$", "", str(err))
+        doc.fail(f"line {line}, column {column}", f"invalid XML: {what}")
+    edge_order = [(e.get("source"), e.get("target")) for e in root.iter(f"{_GRAPHML_NS}edge")]
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # unsupported yFiles ports and untyped keys
+            graph = nx.read_graphml(io.BytesIO(data), force_multigraph=True)
+    except Exception as err:  # noqa: BLE001 - networkx raises many kinds on bad GraphML
+        doc.fail("graphml", f"not readable as GraphML: {err}")
+
+    graph_data = dict(graph.graph)
+    node_default = graph_data.pop("node_default", {}) or {}
+    edge_default = graph_data.pop("edge_default", {}) or {}
+    name = graph_data.pop("name", None)
+    tables: dict[str, dict[str, Any]] = {}
+    for key, value in graph_data.items():
+        prefix, _, rest = key.partition(".")
+        type_name, _, field_name = rest.rpartition(".")
+        if prefix != "fiber_types" or not type_name or not field_name:
+            doc.fail(
+                "graph",
+                f"unknown key '{key}'"
+                + _suggest(key, ["name", "fiber_types.NAME.FIELD"])
+                + "; graph data holds 'name' and 'fiber_types.NAME.FIELD'",
+            )
+        tables.setdefault(type_name, {})[field_name] = value
+    fiber_types = [(n, f"fiber_types.{n}", t) for n, t in tables.items()]
+
+    sites = []
+    for node, attrs in graph.nodes(data=True):
+        table = {**node_default, **attrs}
+        if "id" in table:
+            doc.fail(f"node[{node}]", "attribute 'id' clashes with the node id (the site id)")
+        sites.append((f"node[{node}]", {"id": str(node), **table}))
+
+    cables = []
+    first: dict[frozenset[str], str] = {}
+    for source, target in edge_order:
+        where = f"edge[{source},{target}]"
+        if source is None or target is None:
+            doc.fail(where, "an edge lacks its source or target")
+        pair = frozenset((source, target))
+        if pair in first:
+            doc.fail(
+                where,
+                f"second cable between '{source}' and '{target}' (first is {first[pair]}); "
+                "give one cable more fiber_pairs instead",
+            )
+        first[pair] = where
+        # One edge per pair is left (checked above), so the multigraph holds one key here.
+        (attrs,) = graph.get_edge_data(source, target).values()
+        table = {k: v for k, v in {**edge_default, **attrs}.items() if k != "id"}
+        cables.append((where, {"a": source, "b": target, **table}))
+    return _RawTopology(name=name, fiber_types=fiber_types, sites=sites, cables=cables)
+
+
+def load_topology(path: str | Path) -> Topology:
+    """Read and validate a topology file.
+
+    Parameters
+    ----------
+    path : str or Path
+        A ``.toml`` file, or a ``.graphml`` / ``.xml`` GraphML file (same attribute names;
+        fiber types as graph data keys ``fiber_types.NAME.FIELD``).
+
+    Returns
+    -------
+    Topology
+        With ``source`` set to ``path``.
+
+    Raises
+    ------
+    InputError
+        For anything wrong in the file, as ``FILE: WHERE: what``.
+    """
+    path = Path(path)
+    if path.suffix.lower() in GRAPHML_SUFFIXES:
+        doc = _Doc(str(path), strings_convert=True)
+        return _build_topology(doc, _raw_topology_from_graphml(doc, path), path)
+    _require_toml_suffix(path)
+    return _topology_from_toml_data(_parse_toml(path), path)
+
+
+def _topology_from_toml_data(data: Mapping[str, Any], path: Path) -> Topology:
+    doc = _Doc(str(path))
+    return _build_topology(doc, _raw_topology_from_toml(doc, data), path)
+
+
+def _require_toml_suffix(path: Path) -> None:
+    if path.suffix.lower() != ".toml":
+        raise InputError(str(path), "file", f"unknown file type '{path.suffix}': expected .toml, .graphml or .xml")
+
+
+# ----------------------------------------------------------------------------------------------
+# Scenario
+
+
+def _traffic(doc: _Doc, table: Mapping[str, Any], scenario_file: Path, topology: Topology) -> TrafficSpec:
+    where = "traffic"
+    _check_keys(doc, where, table, TRAFFIC_KEYS)
+    for key in ("pattern", "load_erlang"):
+        if key not in table:
+            doc.fail(where, f"missing required key '{key}'")
+    hints = _hints(TrafficSpec)
+    pattern = _convert(doc, "traffic.pattern", table["pattern"], hints["pattern"])
+
+    raw_loads = table["load_erlang"]
+    if isinstance(raw_loads, list):
+        if not raw_loads:
+            doc.fail("traffic.load_erlang", "empty list: give at least one load")
+        loads = tuple(_as_float(doc, f"traffic.load_erlang[{i}]", v) for i, v in enumerate(raw_loads))
+        wheres = [f"traffic.load_erlang[{i}]" for i in range(len(loads))]
+    else:
+        loads = (_as_float(doc, "traffic.load_erlang", raw_loads),)
+        wheres = ["traffic.load_erlang"]
+    for load_where, load in zip(wheres, loads):
+        if load <= 0:
+            doc.fail(load_where, f"must be > 0, got {load!r}")
+
+    values: dict[str, Any] = {"pattern": pattern, "loads_erlang": loads}
+    if "mean_holding" in table:
+        holding = _as_float(doc, "traffic.mean_holding", table["mean_holding"])
+        if holding <= 0:
+            doc.fail("traffic.mean_holding", f"must be > 0, got {table['mean_holding']!r}")
+        values["mean_holding"] = holding
+    if "sizes_gbps" in table:
+        values["sizes_gbps"] = _sizes(doc, table["sizes_gbps"])
+
+    if pattern == "matrix":
+        if "matrix" not in table:
+            doc.fail(where, "missing required key 'matrix' (the CSV file of pattern 'matrix')")
+        matrix_name = _as_str(doc, "traffic.matrix", table["matrix"])
+        matrix_file = _resolve(scenario_file, matrix_name)
+        values["matrix"] = _read_matrix(matrix_file, _read_bytes(matrix_file, doc, "traffic.matrix"), topology)
+        values["matrix_file"] = matrix_file
+    elif "matrix" in table:
+        doc.fail("traffic.matrix", f"only used with pattern = 'matrix', but pattern is '{pattern}'")
+    elif pattern == "gravity":
+        weights = [s.traffic_weight for s in topology.datacenters]
+        if sum(w > 0 for w in weights) < 2:
+            doc.fail(
+                "traffic.pattern",
+                "gravity pattern gives no traffic: fewer than two datacenters have traffic_weight > 0",
+            )
+    return TrafficSpec(**values)
+
+
+def _sizes(doc: _Doc, value: Any) -> tuple[tuple[float, float], ...]:
+    where = "traffic.sizes_gbps"
+    table = _table(doc, where, value)
+    if not table:
+        doc.fail(where, "empty table: give at least one size = probability")
+    by_size: dict[float, str] = {}
+    pairs = []
+    for key, prob_value in table.items():
+        key_where = f"{where}.{key}"
+        try:
+            size = float(key)
+        except ValueError:
+            doc.fail(key_where, f"size '{key}' is not a number of Gb/s")
+        if not math.isfinite(size) or size <= 0:
+            doc.fail(key_where, f"size must be a finite number > 0, got '{key}'")
+        if size in by_size:
+            doc.fail(key_where, f'size {size:g} Gb/s is given twice (also "{by_size[size]}")')
+        by_size[size] = key
+        prob = _as_float(doc, key_where, prob_value)
+        if not 0 < prob <= 1:
+            doc.fail(key_where, f"probability must be > 0 and <= 1, got {prob_value!r}")
+        pairs.append((size, prob))
+    total = math.fsum(p for _, p in pairs)
+    if abs(total - 1.0) > SIZE_PROBABILITY_TOLERANCE:
+        doc.fail(where, f"probabilities sum to {total:.9g}, not 1")
+    return tuple(sorted(pairs))
+
+
+def _read_matrix(path: Path, data: bytes, topology: Topology) -> tuple[tuple[str, str, float], ...]:
+    """Rows ``a,b,weight`` of a traffic-matrix CSV, validated against ``topology``."""
+    doc = _Doc(str(path))
+    text = _decode(doc, data)
+    reader = csv.reader(io.StringIO(text, newline=""))
+    rows: list[tuple[str, str, float]] = []
+    first_line: dict[frozenset[str], int] = {}
+    header_seen = False
+    try:
+        for fields_ in reader:
+            line = reader.line_num
+            if not any(f.strip() for f in fields_):
+                continue
+            cells = [f.strip() for f in fields_]
+            if not header_seen:
+                if cells != ["a", "b", "weight"]:
+                    doc.fail(f"line {line}", f"header must be 'a,b,weight', got '{','.join(cells)}'")
+                header_seen = True
+                continue
+            rows.append(_matrix_row(doc, f"line {line}", cells, topology, first_line, line))
+    except csv.Error as err:
+        doc.fail(f"line {reader.line_num}", f"invalid CSV: {err}")
+    if not header_seen:
+        doc.fail("line 1", "empty file: expected the header 'a,b,weight' and one row per datacenter pair")
+    if not rows:
+        doc.fail("rows", "no rows after the header")
+    if not any(w > 0 for _, _, w in rows):
+        doc.fail("rows", "every weight is zero: no datacenter pair would get traffic")
+    return tuple(rows)
+
+
+def _matrix_row(
+    doc: _Doc, where: str, cells: list[str], topology: Topology, first_line: dict[frozenset[str], int], line: int
+) -> tuple[str, str, float]:
+    if len(cells) != 3:
+        doc.fail(where, f"expected 3 fields (a,b,weight), got {len(cells)}")
+    a, b, weight_text = cells
+    site_ids = [s.id for s in topology.sites]
+    for site_id in (a, b):
+        if site_id not in site_ids:
+            doc.fail(where, f"unknown site '{site_id}'{_suggest(site_id, site_ids)}")
+        if topology.site(site_id).role != "datacenter":
+            doc.fail(where, f"site '{site_id}' is a {topology.site(site_id).role}, not a datacenter")
+    if a == b:
+        doc.fail(where, f"a and b are the same site '{a}'")
+    try:
+        weight = float(weight_text)
+    except ValueError:
+        doc.fail(where, f"weight '{weight_text}' is not a number")
+    if not math.isfinite(weight) or weight < 0:
+        doc.fail(where, f"weight must be a finite number >= 0, got '{weight_text}'")
+    pair = frozenset((a, b))
+    if pair in first_line:
+        doc.fail(where, f"pair {a},{b} is already given on line {first_line[pair]}")
+    first_line[pair] = line
+    return a, b, weight
+
+
+def _architectures(doc: _Doc, value: Any, topology: Topology) -> tuple[Architecture, ...]:
+    tables = _list_of_tables(doc, "architectures", value)
+    if not tables:
+        doc.fail("architectures", "no architectures: add at least one [[architectures]]")
+    result = []
+    first_where: dict[str, str] = {}
+    for i, table in enumerate(tables):
+        where = f"architectures[{i}]"
+        values = _read_fields(doc, where, table, Architecture)
+        arch = Architecture(**values)
+        if not arch.name.strip():
+            doc.fail(_at(where, "name"), "architecture name is empty")
+        if arch.name in first_where:
+            doc.fail(_at(where, "name"), f"duplicate architecture name '{arch.name}' (also {first_where[arch.name]})")
+        first_where[arch.name] = where
+        if arch.switching == "fractional-joint" and arch.group is None:
+            doc.fail(where, "missing required key 'group' (cores per unit of fractional-joint switching)")
+        if arch.switching != "fractional-joint" and arch.group is not None:
+            doc.fail(_at(where, "group"), f"only used with switching = 'fractional-joint', not '{arch.switching}'")
+        _check_allowed(doc, where, arch, topology)
+        result.append(arch)
+    return tuple(result)
+
+
+def _check_allowed(doc: _Doc, where: str, arch: Architecture, topology: Topology) -> None:
+    """Refuse an architecture that cannot run on the fiber of some cable (ConfigurationError)."""
+    if arch.fiber_type is not None:
+        if arch.fiber_type not in topology.fiber_types:
+            doc.fail(
+                _at(where, "fiber_type"),
+                f"unknown fiber type '{arch.fiber_type}'{_suggest(arch.fiber_type, topology.fiber_types)}",
+            )
+        used = [arch.fiber_type]
+    else:
+        used = list(dict.fromkeys(c.fiber_type for c in topology.cables))
+    key = "group" if arch.switching == "fractional-joint" else "switching"
+    for type_name in used:
+        reason = why_not_allowed(arch, topology.fiber_types[type_name])
+        if reason is not None:
+            raise ConfigurationError(doc.file, _at(where, key), reason)
+
+
+def _section(doc: _Doc, data: Mapping[str, Any], key: str, cls: type) -> Any:
+    if key not in data:
+        return cls()
+    return cls(**_read_fields(doc, key, _table(doc, key, data[key]), cls))
+
+
+def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
+    doc = _Doc(str(path))
+    _check_keys(doc, TOP, data, SCENARIO_KEYS)
+    for key in ("topology", "traffic", "architectures"):
+        if key not in data:
+            doc.fail(TOP, f"missing required key '{key}'")
+    name = _as_str(doc, "name", data["name"]) if "name" in data else path.stem
+    seed = _as_int(doc, "seed", data["seed"]) if "seed" in data else 1
+    if seed < 0:
+        doc.fail("seed", f"must be >= 0, got {seed}")
+
+    topology_path = _resolve(path, _as_str(doc, "topology", data["topology"]))
+    _read_bytes(topology_path, doc, "topology")  # a missing file is the scenario's fault
+    topology = load_topology(topology_path)
+
+    traffic = _traffic(doc, _table(doc, "traffic", data["traffic"]), path, topology)
+    transceiver = _section(doc, data, "transceiver", TransceiverSpec)
+    run = _section(doc, data, "run", RunSpec)
+    architectures = _architectures(doc, data["architectures"], topology)
+    plan = _plan(doc, data["plan"]) if "plan" in data else None
+    forecast = _forecast(doc, data["forecast"]) if "forecast" in data else None
+    return Scenario(
+        name=name,
+        topology=topology,
+        seed=seed,
+        traffic=traffic,
+        transceiver=transceiver,
+        run=run,
+        architectures=architectures,
+        plan=plan,
+        forecast=forecast,
+        source=path,
+    )
+
+
+def _plan(doc: _Doc, value: Any) -> PlanSpec:
+    table = _table(doc, "plan", value)
+    if "unit_costs" in table:
+        _check_keys(doc, "plan.unit_costs", _table(doc, "plan.unit_costs", table["unit_costs"]), UNIT_COST_KEYS)
+    return PlanSpec(**_read_fields(doc, "plan", table, PlanSpec))
+
+
+def _forecast(doc: _Doc, value: Any) -> ForecastSpec:
+    values = _read_fields(doc, "forecast", _table(doc, "forecast", value), ForecastSpec)
+    forecast = ForecastSpec(**values)
+    if forecast.factors and len(forecast.factors) != forecast.years:
+        doc.fail(
+            "forecast.factors",
+            f"{len(forecast.factors)} factors for {forecast.years} years: give one per year 1..{forecast.years}, "
+            "or none to use growth_per_year",
+        )
+    return forecast
+
+
+def overridable_keys() -> list[str]:
+    """Keys :func:`load_scenario` accepts in ``overrides``: ``name``, ``seed`` and ``section.key``."""
+    keys = ["name", "seed"]
+    keys += [f"traffic.{k}" for k in ("pattern", "load_erlang", "mean_holding")]
+    for section, cls in (
+        ("transceiver", TransceiverSpec),
+        ("run", RunSpec),
+        ("plan", PlanSpec),
+        ("forecast", ForecastSpec),
+    ):
+        keys += [f"{section}.{f.name}" for f in fields(cls) if f.name != "unit_costs"]
+    return keys
+
+
+def _apply_overrides(data: dict[str, Any], overrides: Mapping[str, Any]) -> dict[str, Any]:
+    """A copy of the scenario ``data`` with ``overrides`` (``"key"`` or ``"section.key"``) set."""
+    known = overridable_keys()
+    merged = {k: (dict(v) if isinstance(v, Mapping) else v) for k, v in data.items()}
+    for key, value in overrides.items():
+        if key not in known:
+            raise InputError(COMMAND_LINE, str(key), f"unknown setting{_suggest(str(key), known)}")
+        section, _, name = key.rpartition(".")
+        if not section:
+            merged[name] = value
+            continue
+        target = merged.setdefault(section, {})
+        if not isinstance(target, dict):
+            continue  # the file's own error about the section is reported when loading
+        target[name] = value
+    return merged
+
+
+def load_scenario(path: str | Path, *, overrides: Mapping[str, Any] | None = None) -> Scenario:
+    """Read and validate a scenario file and the files it names.
+
+    Parameters
+    ----------
+    path : str or Path
+        The scenario ``.toml``.  Its ``topology`` and ``traffic.matrix`` paths are relative to it.
+    overrides : mapping, optional
+        Settings that replace the file's, as ``{"seed": 3, "run.requests": 1000}``; validated
+        like the file, and an error in one names ``<command line>`` as its file.
+
+    Returns
+    -------
+    Scenario
+        With ``source`` set to ``path``.
+
+    Raises
+    ------
+    InputError
+        For anything wrong in the scenario or the files it names.
+    ConfigurationError
+        For an architecture that cannot run on the topology's fiber.
+    """
+    path = Path(path)
+    _require_toml_suffix(path)
+    data = _parse_toml(path)
+    return _scenario_with_overrides(data, path, overrides or {})
+
+
+def _scenario_with_overrides(data: dict[str, Any], path: Path, overrides: Mapping[str, Any]) -> Scenario:
+    if not overrides:
+        return _scenario_from_data(data, path)
+    merged = _apply_overrides(data, overrides)
+    try:
+        return _scenario_from_data(merged, path)
+    except InputError as err:
+        if err.file == str(path) and any(err.where == k or err.where.startswith(f"{k}[") for k in overrides):
+            raise type(err)(COMMAND_LINE, err.where, err.what) from None
+        raise
+
+
+def load_any(path: str | Path) -> Topology | Scenario:
+    """A topology or a scenario, whichever ``path`` holds (for ``sdmnet check``).
+
+    A TOML file with a ``topology`` key is a scenario; any other TOML file, and every GraphML
+    file, is a topology.
+    """
+    path = Path(path)
+    if path.suffix.lower() in GRAPHML_SUFFIXES:
+        return load_topology(path)
+    _require_toml_suffix(path)
+    data = _parse_toml(path)
+    if "topology" in data:
+        return _scenario_from_data(data, path)
+    return _topology_from_toml_data(data, path)

@@ -1,0 +1,147 @@
+"""Candidate paths with their physics: the ``paths`` table and the routes the engine may use.
+
+For every architecture and datacenter pair, the k shortest routes
+(:func:`sdmnet.routing.k_shortest_routes` on the architecture's view of the topology) are
+evaluated with :func:`sdmnet.physics.evaluate_path` for the architecture's unit on each cable's
+fiber type.  A route whose cables give different unit sizes, or whose fiber type does not allow
+the architecture, is infeasible with that reason.
+"""
+
+from __future__ import annotations
+
+import math
+
+import pandas as pd
+
+from .architectures import unit_geometry, why_not_allowed
+from .model import Architecture, Scenario, Topology, TransceiverSpec
+from .physics import PathPhysics, evaluate_path, mimo_group
+from .routing import Route, datacenter_pairs, k_shortest_routes
+
+__all__ = ["PATH_COLUMNS", "evaluate_route", "path_table", "feasible_routes"]
+
+PATH_COLUMNS: tuple[str, ...] = (
+    "architecture",
+    "a",
+    "b",
+    "rank",
+    "path",
+    "hops",
+    "length_km",
+    "loss_db",
+    "gd_spread_ps",
+    "mimo_taps",
+    "crosstalk_db",
+    "mdl_db",
+    "feasible",
+    "reason",
+)
+
+
+def _unit_cores(arch: Architecture, topology: Topology, route: Route, lane_gbps: float) -> tuple[int | None, str]:
+    """Cores per unit along ``route``, or None with the reason it has no single unit size."""
+    sizes: dict[int, list[str]] = {}
+    for i in route.cables:
+        cable = topology.cables[i]
+        fiber = topology.fiber_types[cable.fiber_type]
+        why = why_not_allowed(arch, fiber)
+        if why is not None:
+            return None, f"cable {cable.key}: {why}"
+        g = unit_geometry(arch, fiber, lane_gbps).cores_per_unit
+        sizes.setdefault(g, []).append(cable.key)
+    if len(sizes) > 1:
+        parts = ", ".join(f"{g} cores on {'/'.join(keys)}" for g, keys in sorted(sizes.items()))
+        return None, f"unit size differs along the path ({parts})"
+    return next(iter(sizes)), ""
+
+
+def evaluate_route(topology: Topology, route: Route, arch: Architecture, transceiver: TransceiverSpec) -> PathPhysics:
+    """Physics of ``route`` for ``arch``'s unit; infeasible if the unit size is not unique.
+
+    When the unit size is undefined (mixed sizes, or a fiber type that forbids the
+    architecture), the figures are still computed (for a unit spanning the mixed cores) so the
+    table shows them, and the verdict is infeasible with that reason first.
+    """
+    hops = [(topology.cables[i], topology.fiber_types[topology.cables[i].fiber_type]) for i in route.cables]
+    cores, why = _unit_cores(arch, topology, route, transceiver.lane_gbps)
+    if cores is not None:
+        return evaluate_path(hops, transceiver, cores)
+    # A stand-in unit as wide as the mixed cores, so no unit-width verdict is added to the reason.
+    phys = evaluate_path(hops, transceiver, mimo_group([f for _, f in hops]))
+    others = [phys.reason] if phys.reason else []
+    return PathPhysics(
+        length_km=phys.length_km,
+        loss_db=phys.loss_db,
+        gd_spread_ps=phys.gd_spread_ps,
+        mimo_taps=phys.mimo_taps,
+        crosstalk_db=phys.crosstalk_db,
+        mdl_db=phys.mdl_db,
+        feasible=False,
+        reason="; ".join([why, *others]),
+        mimo_size=phys.mimo_size,
+    )
+
+
+def _row(arch: Architecture, a: str, b: str, rank: int, route: Route, phys: PathPhysics) -> dict:
+    return {
+        "architecture": arch.name,
+        "a": a,
+        "b": b,
+        "rank": rank,
+        "path": route.label,
+        "hops": len(route.cables),
+        "length_km": phys.length_km,
+        "loss_db": phys.loss_db,
+        "gd_spread_ps": phys.gd_spread_ps,
+        "mimo_taps": phys.mimo_taps,
+        "crosstalk_db": phys.crosstalk_db,
+        "mdl_db": phys.mdl_db,
+        "feasible": phys.feasible,
+        "reason": phys.reason,
+    }
+
+
+def path_table(scenario: Scenario) -> pd.DataFrame:
+    """One row per (architecture, datacenter pair, rank) with the path's physics.
+
+    Columns are :data:`PATH_COLUMNS`.  ``rank`` counts from 1 in order of length.  A pair with
+    no route at all gets one row with rank 0, an empty path, NaN figures and the reason.
+    ``crosstalk_db`` is NaN (an empty cell in CSV) on paths without weakly coupled cables.
+    """
+    rows = []
+    k = scenario.run.k_paths
+    for arch in scenario.architectures:
+        topology = scenario.topology_for(arch)
+        for a, b in datacenter_pairs(topology):
+            routes = k_shortest_routes(topology, a, b, k)
+            if not routes:
+                rows.append(
+                    {
+                        **dict.fromkeys(PATH_COLUMNS, math.nan),
+                        "architecture": arch.name,
+                        "a": a,
+                        "b": b,
+                        "rank": 0,
+                        "path": "",
+                        "hops": 0,
+                        "mimo_taps": 0,
+                        "feasible": False,
+                        "reason": f"no route between {a} and {b}",
+                    }
+                )
+                continue
+            for rank, route in enumerate(routes, start=1):
+                phys = evaluate_route(topology, route, arch, scenario.transceiver)
+                rows.append(_row(arch, a, b, rank, route, phys))
+    return pd.DataFrame(rows, columns=list(PATH_COLUMNS))
+
+
+def feasible_routes(scenario: Scenario, arch: Architecture) -> dict[tuple[str, str], list[Route]]:
+    """Per datacenter pair (in :func:`~sdmnet.routing.datacenter_pairs` order), the feasible
+    routes among the k shortest, in rank order; an empty list when none is feasible."""
+    topology = scenario.topology_for(arch)
+    out: dict[tuple[str, str], list[Route]] = {}
+    for a, b in datacenter_pairs(topology):
+        routes = k_shortest_routes(topology, a, b, scenario.run.k_paths)
+        out[(a, b)] = [r for r in routes if evaluate_route(topology, r, arch, scenario.transceiver).feasible]
+    return out

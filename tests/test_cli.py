@@ -1,0 +1,135 @@
+"""The command line end to end: exit codes, the one-line error, interrupt and resume."""
+
+from __future__ import annotations
+
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from sdmnet.cli import main
+
+ROOT = Path(__file__).resolve().parent.parent
+DEMO_TOPOLOGY = ROOT / "topologies" / "demo-metro.toml"
+
+
+def _scenario(tmp_path: Path, requests: int = 3000, replications: int = 3, name: str = "s.toml") -> Path:
+    text = f"""
+name = "cli-test"
+topology = "{DEMO_TOPOLOGY.as_posix()}"
+seed = 5
+
+[traffic]
+pattern = "gravity"
+load_erlang = [60.0, 90.0]
+mean_holding = 1.0
+sizes_gbps = {{ "400" = 0.5, "1600" = 0.5 }}
+
+[transceiver]
+lane_gbps = 400.0
+power_budget_db = 40.0
+
+[run]
+requests = {requests}
+warmup = 500
+replications = {replications}
+k_paths = 2
+
+[[architectures]]
+name = "core-wise"
+switching = "independent"
+fiber_type = "mcf7-weak"
+
+[[architectures]]
+name = "joint-rc4"
+switching = "joint"
+fiber_type = "mcf4-rc"
+"""
+    path = tmp_path / name
+    path.write_text(text)
+    return path
+
+
+def _run(*args: str, **kw) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "sdmnet", *args], capture_output=True, text=True, **kw)
+
+
+def test_check_prints_what_a_scenario_holds(tmp_path, capsys):
+    assert main(["check", str(_scenario(tmp_path))]) == 0
+    out = capsys.readouterr().out
+    assert "core-wise" in out and "joint-rc4" in out and "dc_alpha" in out
+
+
+def test_bad_input_gives_one_line_and_status_2(tmp_path):
+    bad = tmp_path / "bad.toml"
+    bad.write_text('name = "x"\ntopology = "missing.toml"\nseed = 1\n')
+    proc = _run("simulate", str(bad), "-o", str(tmp_path / "out"))
+    assert proc.returncode == 2
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith(f"error: {bad}: ")
+    assert "Traceback" not in proc.stderr
+
+
+def test_bad_option_gives_one_line_and_status_2(tmp_path):
+    proc = _run("simulate", str(_scenario(tmp_path)), "--jobs", "zero")
+    assert proc.returncode == 2
+    assert proc.stderr.strip().startswith("error: <command line>:")
+    assert len(proc.stderr.strip().splitlines()) == 1
+
+
+def test_unwritable_output_folder_is_an_input_error(tmp_path):
+    blocker = tmp_path / "file"
+    blocker.write_text("")
+    proc = _run("estimate", str(_scenario(tmp_path)), "-o", str(blocker / "sub"))
+    assert proc.returncode == 2
+    assert proc.stderr.startswith(f"error: {blocker / 'sub'}: --out: cannot write the output folder")
+
+
+def test_simulate_estimate_paths_write_their_files(tmp_path):
+    scen = _scenario(tmp_path, requests=1000, replications=2)
+    out = tmp_path / "sim"
+    assert main(["simulate", str(scen), "-o", str(out), "--quiet"]) == 0
+    for name in ("summary.csv", "classes.csv", "pairs.csv", "sites.csv", "cables.csv", "run.json", "blocking.png"):
+        assert (out / name).exists(), name
+    assert main(["estimate", str(scen), "-o", str(tmp_path / "est")]) == 0
+    assert (tmp_path / "est" / "estimate.csv").exists()
+    assert main(["paths", str(scen), "-o", str(tmp_path / "paths")]) == 0
+    assert (tmp_path / "paths" / "paths.csv").exists()
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("signum", [signal.SIGINT, signal.SIGTERM])
+def test_interrupted_then_resumed_sweep_equals_uninterrupted(tmp_path, signum):
+    scen = _scenario(tmp_path, requests=40_000, replications=6)
+    whole, broken = tmp_path / "whole", tmp_path / "broken"
+    done = _run("simulate", str(scen), "-o", str(whole), "--jobs", "2", "--quiet")
+    assert done.returncode == 0, done.stderr
+
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "sdmnet", "simulate", str(scen), "-o", str(broken), "--jobs", "2", "--quiet"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
+    tasks = broken / "tasks"
+    deadline = time.monotonic() + 120
+    while time.monotonic() < deadline:
+        if tasks.exists() and len(list(tasks.glob("*.json"))) >= 3:
+            break
+        time.sleep(0.05)
+    os.kill(proc.pid, signum)
+    _, err = proc.communicate(timeout=60)
+    assert proc.returncode == 130, err
+    assert "Traceback" not in err
+    kept = list(tasks.glob("*.json"))
+    assert 3 <= len(kept) < 24, "the interrupt came too late to test anything"
+    assert not list(tasks.glob(".tmp-*")), "a partial task file was left behind"
+    assert not (broken / "summary.csv").exists()
+
+    resumed = _run("simulate", str(scen), "-o", str(broken), "--jobs", "2", "--resume", "--quiet")
+    assert resumed.returncode == 0, resumed.stderr
+    assert (broken / "summary.csv").read_bytes() == (whole / "summary.csv").read_bytes()

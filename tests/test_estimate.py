@@ -1,0 +1,149 @@
+"""The analytic estimate of a scenario against the single-link formulas it must reduce to.
+
+Routes come from ``builders.shortest_routes`` (no physics) unless a test says otherwise, so
+these checks do not depend on the physical layer.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from builders import chain, fiber_type, scenario, shortest_routes, single_cable
+
+from sdmnet.analytic import erlang_b, kaufman_roberts, reduced_load_fixed_point
+from sdmnet.errors import ConfigurationError
+from sdmnet.estimate import NETWORK_COLUMNS, PAIR_COLUMNS, estimate
+from sdmnet.model import Architecture, Cable, Site, Topology
+
+INDEPENDENT = Architecture("ind", "independent")
+
+
+def test_single_cable_single_core_is_erlang_b():
+    # MODEL.md section 3: one cable, single-core fibers, sizes = lane rate, independent switching
+    # -> Erlang B with C = fiber_pairs x channels servers (Erlang B checked against published
+    # tables in test_analytic.py).
+    loads = (5.0, 15.0, 25.0)
+    sc = scenario(single_cable(fiber_type(cores=1, channels=10), fiber_pairs=2), [INDEPENDENT], loads=loads)
+    net, pairs = estimate(sc, route_finder=shortest_routes)
+    assert list(net.columns) == list(NETWORK_COLUMNS)
+    assert list(pairs.columns) == list(PAIR_COLUMNS)
+    assert net["blocking"].tolist() == pytest.approx([erlang_b(20, a) for a in loads], rel=1e-10)
+    assert net["bandwidth_blocking"].tolist() == pytest.approx(net["blocking"].tolist(), rel=1e-12)
+    assert pairs["blocking"].tolist() == pytest.approx(net["blocking"].tolist(), rel=1e-12)
+    assert net["converged"].all()
+
+
+def test_single_short_cable_with_default_routes_is_erlang_b():
+    # Same check through the default route finder (a 10 km cable is feasible for any sensible
+    # transceiver, so the physical layer keeps the route).
+    sc = scenario(single_cable(fiber_type(cores=1, channels=8), fiber_pairs=1), [INDEPENDENT], loads=(4.0,))
+    net, _ = estimate(sc)
+    assert net["blocking"].iloc[0] == pytest.approx(erlang_b(8, 4.0), rel=1e-10)
+
+
+def test_mixed_sizes_on_one_cable_are_kaufman_roberts():
+    # MODEL.md section 3: mixed sizes on one cable without contiguity -> Kaufman-Roberts per class.
+    # Lane 100 Gb/s on single-core fiber: 100 Gb/s takes 1 unit, 300 Gb/s takes 3.
+    sizes = ((100.0, 0.75), (300.0, 0.25))
+    sc = scenario(single_cable(fiber_type(cores=1, channels=12), fiber_pairs=1), [INDEPENDENT],
+                  loads=(6.0,), sizes=sizes)  # fmt: skip
+    net, _ = estimate(sc, route_finder=shortest_routes)
+    per_class = kaufman_roberts(12, [6.0 * 0.75, 6.0 * 0.25], [1, 3])
+    request = 0.75 * per_class[0] + 0.25 * per_class[1]
+    bandwidth = (0.75 * 100 * per_class[0] + 0.25 * 300 * per_class[1]) / (0.75 * 100 + 0.25 * 300)
+    assert net["blocking"].iloc[0] == pytest.approx(request, rel=1e-10)
+    assert net["bandwidth_blocking"].iloc[0] == pytest.approx(bandwidth, rel=1e-10)
+    assert net["bandwidth_blocking"].iloc[0] > net["blocking"].iloc[0]
+
+
+@pytest.mark.parametrize(
+    ("arch", "servers"),
+    [
+        (Architecture("ind", "independent"), 4 * 8 * 2),  # a unit per core and channel
+        (Architecture("fj", "fractional-joint", group=2), 2 * 8 * 2),  # per core pair and channel
+        (Architecture("joint", "joint"), 8 * 2),  # per channel
+        (Architecture("fib", "fiber"), 2),  # per fiber pair
+    ],
+)
+def test_unit_count_per_architecture_on_one_cable(arch, servers):
+    # 4-core weakly coupled fiber, 8 channels, 2 fiber pairs, lane 100 Gb/s, demands of 100 Gb/s:
+    # every architecture's unit carries one demand, so blocking is Erlang B on its unit count
+    # (MODEL.md section 2 table).
+    sc = scenario(single_cable(fiber_type(cores=4, channels=8), fiber_pairs=2), [arch], loads=(1.5, 12.0))
+    net, _ = estimate(sc, route_finder=shortest_routes)
+    assert net["switching"].iloc[0] == arch.switching
+    assert net["blocking"].tolist() == pytest.approx([erlang_b(servers, a) for a in (1.5, 12.0)], rel=1e-10)
+
+
+def test_demand_wider_than_a_unit_takes_several_units():
+    # Independent switching, 400 Gb/s demands on 100 Gb/s lanes: 4 units each on 16 units.
+    sc = scenario(single_cable(fiber_type(cores=2, channels=8), fiber_pairs=1), [INDEPENDENT],
+                  loads=(2.0,), sizes=((400.0, 1.0),))  # fmt: skip
+    net, _ = estimate(sc, route_finder=shortest_routes)
+    assert net["blocking"].iloc[0] == pytest.approx(kaufman_roberts(16, [2.0], [4])[0], rel=1e-10)
+
+
+def test_chain_gives_the_fixed_point_and_overestimates_erlang_b():
+    # One pair over 3 cables in series: the estimate is the Erlang fixed point, which exceeds
+    # the exact Erlang B of the chain (Kelly, Ann. Appl. Probab. 1(3), 1991; test_analytic.py
+    # checks the fixed point value itself).
+    sc = scenario(chain(fiber_type(cores=1, channels=10), hops=3), [INDEPENDENT], loads=(7.0,))
+    net, pairs = estimate(sc, route_finder=shortest_routes)
+    fp = reduced_load_fixed_point([10, 10, 10], [(7.0, (0, 1, 2), 1)])
+    assert net["blocking"].iloc[0] == pytest.approx(fp.stream_blocking[0], abs=1e-9)
+    assert net["blocking"].iloc[0] > erlang_b(10, 7.0)
+    assert len(pairs) == 1 and tuple(pairs[["a", "b"]].iloc[0]) == ("S0", "S3")
+
+
+def _star() -> Topology:
+    """Three datacenters around one hub; cable capacities differ."""
+    f = fiber_type(cores=1, channels=6)
+    sites = (Site("H", "hub"), Site("A", "datacenter"), Site("B", "datacenter"), Site("C", "datacenter"))
+    cables = (Cable("H", "A", 5.0, f.name, 1), Cable("H", "B", 5.0, f.name, 2), Cable("H", "C", 5.0, f.name, 3))
+    return Topology("star", {f.name: f}, sites, cables)
+
+
+def test_network_blocking_is_the_load_weighted_pair_blocking():
+    sc = scenario(_star(), [INDEPENDENT], loads=(4.0, 9.0))
+    net, pairs = estimate(sc, route_finder=shortest_routes)
+    assert len(pairs) == 2 * 3
+    for load, group in pairs.groupby("load_erlang"):
+        # Uniform pattern: each of the three pairs offers a third of the load.
+        expected = group["blocking"].mean()
+        assert net.loc[net["load_erlang"] == load, "blocking"].iloc[0] == pytest.approx(expected, rel=1e-12)
+    # The pair whose cables are smallest blocks most (A-B uses 6 + 12 units, B-C 12 + 18).
+    first = pairs[pairs["load_erlang"] == 9.0].set_index(["a", "b"])["blocking"]
+    assert first[("A", "B")] > first[("B", "C")]
+
+
+def test_pair_without_route_is_fully_blocked():
+    sc = scenario(_star(), [INDEPENDENT], loads=(3.0,))
+
+    def no_route_for_a_b(scn, arch):
+        found = shortest_routes(scn, arch)
+        found[("A", "B")] = []
+        return found
+
+    net, pairs = estimate(sc, route_finder=no_route_for_a_b)
+    by_pair = pairs.set_index(["a", "b"])["blocking"]
+    assert by_pair[("A", "B")] == 1.0
+    assert by_pair[("B", "C")] < 1.0
+    assert net["blocking"].iloc[0] == pytest.approx(by_pair.mean(), rel=1e-12)
+
+
+def test_one_row_per_architecture_and_load():
+    archs = [Architecture("ind", "independent"), Architecture("joint", "joint"), Architecture("fib", "fiber")]
+    sc = scenario(single_cable(fiber_type(cores=4, channels=8), fiber_pairs=2), archs, loads=(20.0, 40.0, 60.0))
+    net, pairs = estimate(sc, route_finder=shortest_routes)
+    assert len(net) == 9 and len(pairs) == 9
+    assert net.groupby("architecture").size().to_dict() == {"ind": 3, "joint": 3, "fib": 3}
+    # More load never lowers blocking (common practice, no source).
+    for _, group in net.groupby("architecture"):
+        assert np.all(np.diff(group["blocking"].to_numpy()) > 0)
+
+
+def test_independent_switching_on_random_coupling_is_a_configuration_error():
+    f = fiber_type(cores=4, coupling="random", coupled_group=2)
+    sc = scenario(single_cable(f), [INDEPENDENT])
+    with pytest.raises(ConfigurationError, match="architectures\\[0\\]"):
+        estimate(sc, route_finder=shortest_routes)

@@ -1,0 +1,196 @@
+"""Dimensioning: the plan against Erlang B on one cable, re-simulation, local minimality, cuts.
+
+Expected fiber counts are computed here from the Erlang B recursion
+B(0) = 1, B(n) = A B(n-1) / (n + A B(n-1)) (Iversen, *Teletraffic Engineering and Network
+Planning*, ITU-D/DTU, ch. 4), not from sdmnet's analytic module.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import pandas as pd
+import pytest
+from builders import fiber_type, scenario, single_cable
+
+from sdmnet.model import Architecture, Cable, PlanSpec, Site, Topology
+from sdmnet.planning import (
+    analytic_first_guess,
+    congestion_from_utilisation,
+    plan_architecture,
+    run_plan,
+)
+from sdmnet.stats import summarize_point
+from sdmnet.sweep import run_sweep
+
+TARGET = 0.01
+
+
+def erlang_b(servers: int, load: float) -> float:
+    b = 1.0
+    for n in range(1, servers + 1):
+        b = load * b / (n + load * b)
+    return b
+
+
+def fewest_pairs(load: float, channels: int, target: float) -> int:
+    n = 1
+    while erlang_b(n * channels, load) > target:
+        n += 1
+    return n
+
+
+def _single_cable_case(load=10.0, channels=5, requests=3000):
+    fiber = fiber_type(cores=1, channels=channels)
+    arch = Architecture("ind", "independent")
+    sc = scenario(single_cable(fiber), [arch], loads=(4.0, load), requests=requests, warmup=300, replications=3)
+    return replace(sc, plan=PlanSpec(target_blocking=TARGET)), arch
+
+
+def _three_datacenter_chain(load=12.0):
+    # A - B - C, all datacenters, gravity weights 3 : 1 : 2, single-core fiber of 4 channels:
+    # one fiber pair is a coarse step (4 servers), so one pair fewer clearly misses.
+    fiber = fiber_type(cores=1, channels=4)
+    topo = Topology(
+        "abc",
+        {fiber.name: fiber},
+        (Site("A", "datacenter", 3.0), Site("B", "datacenter", 1.0), Site("C", "datacenter", 2.0)),
+        (Cable("A", "B", 10.0, fiber.name, 1), Cable("B", "C", 12.0, fiber.name, 1)),
+    )
+    arch = Architecture("ind", "independent")
+    sc = scenario(topo, [arch], loads=(load,), requests=3000, warmup=300, replications=3, pattern="gravity")
+    return replace(sc, plan=PlanSpec(target_blocking=TARGET)), arch
+
+
+def _resimulate(sc, arch, pairs: dict[str, int], seed: int, requests=10_000, replications=6):
+    fresh = replace(
+        sc,
+        seed=seed,
+        architectures=(arch,),
+        topology=sc.topology.with_fiber_pairs(pairs),
+        run=replace(sc.run, requests=requests, replications=replications),
+        traffic=replace(sc.traffic, loads_erlang=(max(sc.traffic.loads_erlang),)),
+    )
+    return summarize_point(list(run_sweep(fresh, None).values())).blocking
+
+
+def test_the_boundary_of_the_single_cable_case_is_unambiguous():
+    # Guard of the next tests: the expected count meets the target with room, one fewer misses by far.
+    n = fewest_pairs(10.0, 5, TARGET)
+    assert erlang_b(5 * n, 10.0) < TARGET / 3
+    assert erlang_b(5 * (n - 1), 10.0) > 3 * TARGET
+
+
+def test_first_guess_on_one_cable_is_the_erlang_b_count():
+    sc, arch = _single_cable_case()
+    assert analytic_first_guess(sc, arch) == {"A-B": fewest_pairs(10.0, 5, TARGET)}
+
+
+@pytest.mark.parametrize("start", [1, 9])
+def test_single_cable_plan_is_the_fewest_pairs_meeting_erlang_b(start):
+    # From below (grow) and from above (trim) the simulation lands on the Erlang B count,
+    # at the highest load point of the scenario.
+    sc, arch = _single_cable_case()
+    plan = plan_architecture(sc, arch, start={"A-B": start})
+    assert plan.load_erlang == 10.0
+    assert plan.fiber_pairs == (fewest_pairs(10.0, 5, TARGET),)
+    assert plan.met and plan.locally_minimal
+    assert plan.evaluation.point.blocking.mean <= TARGET
+    assert plan.candidates <= 10
+
+
+def test_plan_meets_target_on_a_fresh_seed_and_one_pair_fewer_misses(tmp_path):
+    sc, arch = _three_datacenter_chain()
+    result = run_plan(sc, tmp_path, progress=False)
+    pairs = result.plans[0].pairs_by_cable
+    assert result.plans[0].met and result.plans[0].locally_minimal
+    fresh = _resimulate(sc, arch, pairs, seed=sc.seed + 1000)
+    assert fresh.low <= TARGET, fresh  # consistent with meeting the target
+    # The heavier A-B cable (weights 3 x 1 + 3 x 2 of 11) needs at least as many pairs as B-C.
+    assert pairs["A-B"] >= pairs["B-C"]
+    for cable in pairs:
+        fewer = dict(pairs, **{cable: pairs[cable] - 1})
+        if fewer[cable] < 1:
+            continue
+        missed = _resimulate(sc, arch, fewer, seed=sc.seed + 1000)
+        assert missed.low > TARGET, (cable, missed)
+
+
+def test_plan_files_have_the_contract_columns(tmp_path):
+    sc, arch = _three_datacenter_chain()
+    sc = replace(sc, plan=PlanSpec(TARGET, unit_costs={"fiber_pair_km": 2.0, "transceiver_lane": 3.0}))
+    run_plan(sc, tmp_path, progress=False)
+    plan = pd.read_csv(tmp_path / "plan.csv")
+    for col in ("architecture", "cable", "fiber_pairs", "blocking", "blocking_ci_low", "blocking_ci_high"):
+        assert col in plan.columns
+    assert sorted(plan["cable"]) == ["A-B", "B-C"]
+    totals = pd.read_csv(tmp_path / "plan_totals.csv")
+    row = totals.iloc[0]
+    lengths = {"A-B": 10.0, "B-C": 12.0}
+    pair_km = sum(r.fiber_pairs * lengths[r.cable] for r in plan.itertuples())
+    assert row["fiber_pairs"] == plan["fiber_pairs"].sum()
+    assert row["fiber_km"] == pytest.approx(2 * pair_km)  # strands: 2 per pair
+    # Cost from the unit prices given (switch ports unpriced here).
+    assert row["cost"] == pytest.approx(2.0 * pair_km + 3.0 * row["transceiver_lanes_peak"])
+    sites = pd.read_csv(tmp_path / "plan_sites.csv")
+    assert set(sites["site"]) == {"A", "B", "C"}
+    # Independent switching on single-core fiber: one port per fiber pair at each end.
+    ports_b = plan["fiber_pairs"].sum()
+    assert int(sites.loc[sites["site"] == "B", "switch_ports"].iloc[0]) == ports_b
+
+
+def test_per_pair_plan_keeps_every_pair_under_target():
+    sc, arch = _three_datacenter_chain()
+    sc = replace(sc, plan=PlanSpec(TARGET, per_pair=True))
+    plan = plan_architecture(sc, arch)
+    point = plan.evaluation.point
+    assert plan.met
+    assert all(iv.mean <= TARGET for iv in point.pair_blocking)
+
+
+def test_cable_cut_names_the_cable_that_isolates_a_datacenter(tmp_path):
+    # Triangle A-B-C plus D hanging off A by one cable: cutting A-D cuts D off (half the pairs
+    # under uniform traffic), any triangle cable only reroutes over two hops.
+    fiber = fiber_type(cores=1, channels=8)
+    sites = tuple(Site(s, "datacenter") for s in "ABCD")
+    cables = (
+        Cable("A", "B", 10.0, fiber.name, 1),
+        Cable("B", "C", 10.0, fiber.name, 1),
+        Cable("A", "C", 10.0, fiber.name, 1),
+        Cable("A", "D", 10.0, fiber.name, 1),
+    )
+    arch = Architecture("ind", "independent")
+    sc = scenario(Topology("tri", {fiber.name: fiber}, sites, cables), [arch], loads=(6.0,), requests=2000,
+                  warmup=200, replications=3, k_paths=2)
+    sc = replace(sc, plan=PlanSpec(TARGET))
+    result = run_plan(sc, tmp_path, progress=False, cable_cuts=True)
+    cuts = pd.read_csv(tmp_path / "cuts.csv")
+    assert set(cuts["cable"]) == {"A-B", "B-C", "A-C", "A-D"}
+    assert (cuts["worst"] == "A-D").all()
+    assert cuts.loc[cuts["is_worst"], "cable"].tolist() == ["A-D"]
+    worst = cuts.loc[cuts["cable"] == "A-D"].iloc[0]
+    assert worst["pairs_without_route"] == 3
+    assert worst["blocking"] >= 0.45  # 3 of 6 equally loaded pairs lose everything
+    assert result.cuts is not None and len(result.cuts) == 4
+
+
+def test_congestion_reading_inverts_erlang_b():
+    # A cable of 10 servers offered 5 Erlang carries 5 (1 - B) on average; reading that
+    # utilisation back gives B(10, 5).
+    for servers, load in ((10, 5.0), (20, 15.0), (4, 1.0)):
+        b = erlang_b(servers, load)
+        util = load * (1 - b) / servers
+        got = congestion_from_utilisation([util], [servers], [1.0])[0]
+        assert got == pytest.approx(b, rel=1e-6)
+
+
+def test_unreachable_target_is_reported_not_hidden():
+    # More load than even max_fiber_pairs can carry: the plan stops at the bound and says so.
+    fiber = fiber_type(cores=1, channels=2)
+    arch = Architecture("ind", "independent")
+    sc = scenario(single_cable(fiber), [arch], loads=(30.0,), requests=1000, warmup=100, replications=2)
+    sc = replace(sc, plan=PlanSpec(TARGET, max_fiber_pairs=3))
+    plan = plan_architecture(sc, arch)
+    assert not plan.met
+    assert plan.fiber_pairs == (3,)
+    assert "max_fiber_pairs" in plan.note

@@ -20,6 +20,12 @@ Choices this module makes (the file contract is in MODEL.md section 5):
 - GraphML attribute values declared as strings are converted when a number or boolean is
   expected (graph editors often write every attribute as a string); TOML is taken as typed.
 - ``group`` is refused on an architecture whose switching is not ``fractional-joint``.
+- Integers must fit in 64 bits (the engine counts in numpy int64); a forecast spans at most
+  :data:`MAX_FORECAST_YEARS` years.
+- Columns in positions count from 1 (TOML and XML alike); control characters in keys and
+  values are escaped so that every error stays on one line.
+- A missing or unreadable file named by a scenario (``topology``, ``traffic.matrix``) is
+  blamed on the scenario's key; a problem inside that file is blamed on that file.
 
 Keys of fiber types, the transceiver, run, plan, forecast and architectures are driven by
 :func:`dataclasses.fields` of the model classes, so a field added to the model is read with no
@@ -88,6 +94,8 @@ SCENARIO_KEYS = (
 TRAFFIC_KEYS = ("pattern", "load_erlang", "mean_holding", "sizes_gbps", "matrix")
 UNIT_COST_KEYS = ("fiber_pair_km", "transceiver_lane", "switch_port")
 SIZE_PROBABILITY_TOLERANCE = 1e-6
+# Every forecast year is a full dimensioning run, so the horizon is kept to planning scale.
+MAX_FORECAST_YEARS = 100
 
 
 # ----------------------------------------------------------------------------------------------
@@ -101,8 +109,18 @@ class _Doc:
     file: str
     strings_convert: bool = False  # GraphML: "12.5" may stand for a number
 
-    def fail(self, where: str, what: str) -> NoReturn:
-        raise InputError(self.file, where, what)
+    def fail(self, where: str, what: str, *, kind: type[InputError] = InputError) -> NoReturn:
+        raise _error(kind, self.file, where, what)
+
+
+def _one_line(text: str) -> str:
+    """``text`` with control characters escaped: the CLI prints each error on one line."""
+    return "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
+
+
+def _error(kind: type[InputError], file: str, where: str, what: str) -> InputError:
+    """An error of class ``kind`` whose key path and message are single lines."""
+    return kind(file, _one_line(where), _one_line(what))
 
 
 def _at(where: str, key: str) -> str:
@@ -119,16 +137,28 @@ def _suggest(word: str, known: Iterable[str]) -> str:
     return f" (known: {', '.join(known)})" if known else ""
 
 
+def _shorten(text: str, limit: int = 40) -> str:
+    """``text`` cut to ``limit`` characters with ``...``, so a huge value cannot flood a message."""
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
+def _number(value: float) -> str:
+    """A number as a user would write it: ``0`` for 0.0, ``2.5``, ``inf``, ``1e-09``."""
+    if isinstance(value, float) and value.is_integer() and abs(value) < 1e16:
+        return str(int(value))
+    return _shorten(repr(value))
+
+
 def _show(value: Any) -> str:
     """A value as a user wrote it, with its kind, for 'got ...' messages."""
     if isinstance(value, bool):
         return f"boolean {str(value).lower()}"
     if isinstance(value, str):
-        return f"string '{value}'"
+        return f"string '{_shorten(value)}'"
     if isinstance(value, int):
-        return f"integer {value}"
+        return f"integer {_shorten(str(value))}"
     if isinstance(value, float):
-        return f"number {value!r}"
+        return f"number {_shorten(repr(value))}"
     if isinstance(value, Mapping):
         return "a table"
     if isinstance(value, list | tuple):
@@ -170,11 +200,20 @@ def _as_bool(doc: _Doc, where: str, value: Any) -> bool:
     doc.fail(where, f"expected true or false, got {_show(value)}")
 
 
+# Integers must fit in 64 bits: the engine keeps counts and seeds in numpy int64 arrays.
+INT_LIMIT = 2**63 - 1
+
+
 def _as_int(doc: _Doc, where: str, value: Any) -> int:
+    raw = value
+    if doc.strings_convert and isinstance(value, str) and re.fullmatch(r"\s*[+-]?[0-9]+\s*", value):
+        if len(value.strip().lstrip("+-")) > 19:
+            doc.fail(where, f"integer too large, got {_show(raw)}")
+        value = int(value)
     if isinstance(value, int) and not isinstance(value, bool):
+        if abs(value) > INT_LIMIT:
+            doc.fail(where, f"integer too large, got {_show(raw)}")
         return value
-    if doc.strings_convert and isinstance(value, str) and re.fullmatch(r"\s*[+-]?\d+\s*", value):
-        return int(value)
     if isinstance(value, float) and value.is_integer():
         doc.fail(where, f"expected an integer, got {_show(value)} (write it without a decimal point)")
     doc.fail(where, f"expected an integer, got {_show(value)}")
@@ -250,19 +289,23 @@ Limit = Callable[[Any], "str | None"]
 
 
 def _greater(bound: float) -> Limit:
-    return lambda v: None if v > bound else f"must be > {bound:g}, got {v!r}"
+    return lambda v: None if v > bound else f"must be > {bound:g}, got {_number(v)}"
 
 
 def _at_least(bound: float) -> Limit:
-    return lambda v: None if v >= bound else f"must be >= {bound:g}, got {v!r}"
+    return lambda v: None if v >= bound else f"must be >= {bound:g}, got {_number(v)}"
+
+
+def _at_most(bound: float) -> Limit:
+    return lambda v: None if v <= bound else f"must be <= {bound:g}, got {_number(v)}"
 
 
 def _below(bound: float) -> Limit:
-    return lambda v: None if v < bound else f"must be < {bound:g}, got {v!r}"
+    return lambda v: None if v < bound else f"must be < {bound:g}, got {_number(v)}"
 
 
 def _inside_unit(v: float) -> str | None:
-    return None if 0 < v < 1 else f"must be between 0 and 1 (exclusive), got {v!r}"
+    return None if 0 < v < 1 else f"must be between 0 and 1 (exclusive), got {_number(v)}"
 
 
 def _each(limit: Limit) -> Limit:
@@ -316,7 +359,7 @@ LIMITS: dict[tuple[type, str], Limit] = {
     (PlanSpec, "target_blocking"): _inside_unit,
     (PlanSpec, "max_fiber_pairs"): _at_least(1),
     (PlanSpec, "unit_costs"): _each(_at_least(0)),
-    (ForecastSpec, "years"): _at_least(1),
+    (ForecastSpec, "years"): lambda v: _at_least(1)(v) or _at_most(MAX_FORECAST_YEARS)(v),
     (ForecastSpec, "growth_per_year"): _greater(-1),
     (ForecastSpec, "factors"): _each(_greater(0)),
 }
@@ -370,31 +413,40 @@ def _read_fields(
 def _read_bytes(path: Path, owner: _Doc | None = None, key: str = "file") -> bytes:
     """The bytes of ``path``; a missing file is blamed on ``owner``'s ``key`` when given."""
     doc = owner or _Doc(str(path))
+    # Naming the path again only helps when the error is blamed on another file.
+    named = f": {path}" if owner else ""
     try:
+        if path.is_dir():
+            doc.fail(key, f"is a directory, not a file{named}")
         return path.read_bytes()
     except FileNotFoundError:
-        doc.fail(key, f"file not found: {path}")
+        doc.fail(key, f"file not found{named}")
     except IsADirectoryError:
-        doc.fail(key, f"is a directory, not a file: {path}")
+        doc.fail(key, f"is a directory, not a file{named}")
     except OSError as err:
-        doc.fail(key, f"cannot read {path}: {err.strerror or err}")
+        doc.fail(key, f"cannot read the file{named}: {err.strerror or err}")
+    except ValueError:  # a NUL character in the name
+        doc.fail(key, f"invalid file name{named}")
 
 
 def _decode(doc: _Doc, data: bytes) -> str:
     try:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError as err:
-        doc.fail(f"byte {err.start}", "not UTF-8 text")
+        line = data.count(b"\n", 0, err.start) + 1
+        doc.fail(f"line {line}", f"not UTF-8 text (byte 0x{data[err.start]:02x}); save the file as UTF-8")
 
 
 _TOML_POSITION = re.compile(r"^(?P<what>.*) \(at (?:line (?P<line>\d+), column (?P<col>\d+)|end of document)\)$")
 
 
-def _parse_toml(path: Path) -> dict[str, Any]:
+def _parse_toml(path: Path, data: bytes) -> dict[str, Any]:
     doc = _Doc(str(path))
-    text = _decode(doc, _read_bytes(path))
+    text = _decode(doc, data)
     try:
         return tomllib.loads(text)
+    except RecursionError:
+        doc.fail("file", "invalid TOML: arrays or tables nested too deeply")
     except tomllib.TOMLDecodeError as err:
         message = str(err)
         match = _TOML_POSITION.match(message)
@@ -404,11 +456,18 @@ def _parse_toml(path: Path) -> dict[str, Any]:
         what = what[:1].lower() + what[1:]
         where = f"line {match['line']}, column {match['col']}" if match["line"] else "end of file"
         doc.fail(where, f"invalid TOML: {what}")
+    except ValueError:  # tomllib lets int()'s refusal of integers over 4300 digits through
+        doc.fail("file", "invalid TOML: an integer has too many digits")
 
 
-def _resolve(base_file: Path, value: str) -> Path:
+def _resolve(doc: _Doc, key: str, base_file: Path, value: str) -> Path:
     """``value`` as a path relative to the directory of ``base_file`` (absolute paths stay)."""
-    path = Path(value).expanduser()
+    if not value.strip():
+        doc.fail(key, "empty file name")
+    try:
+        path = Path(value).expanduser()
+    except RuntimeError:  # "~user" of an unknown user
+        doc.fail(key, f"cannot expand '~' in '{value}'")
     return path if path.is_absolute() else base_file.parent / path
 
 
@@ -437,12 +496,12 @@ def _fiber_type(doc: _Doc, name: str, where: str, table: Mapping[str, Any]) -> F
         if group != 1:
             doc.fail(
                 _at(where, "coupled_group"),
-                f"weakly coupled cores are isolated, so coupled_group must be 1, got {group}",
+                f"must be 1 for weak coupling (weakly coupled cores are isolated), got {group}",
             )
     else:
         group = values.setdefault("coupled_group", cores)
         if cores % group:
-            doc.fail(_at(where, "coupled_group"), f"coupled_group {group} does not divide the {cores} cores")
+            doc.fail(_at(where, "coupled_group"), f"must divide cores ({cores}), got {group}")
     return FiberType(name=name, **values)
 
 
@@ -537,23 +596,39 @@ def _raw_topology_from_toml(doc: _Doc, data: Mapping[str, Any]) -> _RawTopology:
 _GRAPHML_NS = "{http://graphml.graphdrawing.org/xmlns}"
 
 
-def _raw_topology_from_graphml(doc: _Doc, path: Path) -> _RawTopology:
-    data = _read_bytes(path)
-    # Parse once ourselves: for the position of XML errors, and for the edge order of the
-    # document (networkx reports edges grouped by node, and cable order matters in reports).
+def _local_name(tag: Any) -> str:
+    """``edge`` of ``{namespace}edge`` (comments and processing instructions have no str tag)."""
+    return tag.rpartition("}")[2] if isinstance(tag, str) else ""
+
+
+def _raw_topology_from_graphml(doc: _Doc, data: bytes) -> _RawTopology:
+    # Parse once ourselves: for the position of XML errors, and for the edge order and
+    # orientation of the document (networkx reports edges grouped by node, and cable order and
+    # the a/b orientation show in every report).
     try:
         root = ET.fromstring(data)
     except ET.ParseError as err:
         line, column = err.position
         what = re.sub(r":? line \d+, column \d+$", "", str(err))
-        doc.fail(f"line {line}, column {column}", f"invalid XML: {what}")
-    edge_order = [(e.get("source"), e.get("target")) for e in root.iter(f"{_GRAPHML_NS}edge")]
+        # expat counts columns from 0; TOML and editors count from 1.
+        doc.fail(f"line {line}, column {column + 1}", f"invalid XML: {what}")
+    except (LookupError, ValueError) as err:  # an unknown or unsupported encoding declaration
+        doc.fail("line 1", f"invalid XML: {err}")
+    document_edges: list[tuple[str, str]] = []
+    for element in root.iter():
+        if _local_name(element.tag) == "edge":
+            source, target = element.get("source"), element.get("target")
+            if source is None or target is None:
+                doc.fail(f"edge[{source},{target}]", "an edge lacks its source or target")
+            document_edges.append((source, target))
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")  # unsupported yFiles ports and untyped keys
             graph = nx.read_graphml(io.BytesIO(data), force_multigraph=True)
     except Exception as err:  # noqa: BLE001 - networkx raises many kinds on bad GraphML
-        doc.fail("graphml", f"not readable as GraphML: {err}")
+        # networkx raises KeyError for a key type or domain it does not know.
+        detail = f"unsupported value {err}" if isinstance(err, KeyError) else str(err) or type(err).__name__
+        doc.fail("graphml", f"not readable as GraphML: {_shorten(detail, 200)}")
 
     graph_data = dict(graph.graph)
     node_default = graph_data.pop("node_default", {}) or {}
@@ -561,13 +636,13 @@ def _raw_topology_from_graphml(doc: _Doc, path: Path) -> _RawTopology:
     name = graph_data.pop("name", None)
     tables: dict[str, dict[str, Any]] = {}
     for key, value in graph_data.items():
-        prefix, _, rest = key.partition(".")
+        prefix, _, rest = str(key).partition(".")
         type_name, _, field_name = rest.rpartition(".")
         if prefix != "fiber_types" or not type_name or not field_name:
             doc.fail(
                 "graph",
                 f"unknown key '{key}'"
-                + _suggest(key, ["name", "fiber_types.NAME.FIELD"])
+                + _suggest(str(key), ["name", "fiber_types.NAME.FIELD"])
                 + "; graph data holds 'name' and 'fiber_types.NAME.FIELD'",
             )
         tables.setdefault(type_name, {})[field_name] = value
@@ -580,12 +655,22 @@ def _raw_topology_from_graphml(doc: _Doc, path: Path) -> _RawTopology:
             doc.fail(f"node[{node}]", "attribute 'id' clashes with the node id (the site id)")
         sites.append((f"node[{node}]", {"id": str(node), **table}))
 
+    # Edges in document order, each oriented as written (source = a, target = b): each edge of
+    # networkx takes the first unused document edge between the same two sites.
+    unused: dict[frozenset[str], list[tuple[int, str, str]]] = {}
+    for index, (source, target) in enumerate(document_edges):
+        unused.setdefault(frozenset((source, target)), []).append((index, source, target))
+    edges = []
+    for u, v, attrs in graph.edges(data=True):
+        waiting = unused.get(frozenset((str(u), str(v))))
+        index, source, target = waiting.pop(0) if waiting else (len(document_edges), str(u), str(v))
+        edges.append((index, source, target, attrs))
+    edges.sort(key=lambda edge: edge[0])
+
     cables = []
     first: dict[frozenset[str], str] = {}
-    for source, target in edge_order:
+    for _, source, target, attrs in edges:
         where = f"edge[{source},{target}]"
-        if source is None or target is None:
-            doc.fail(where, "an edge lacks its source or target")
         pair = frozenset((source, target))
         if pair in first:
             doc.fail(
@@ -594,9 +679,10 @@ def _raw_topology_from_graphml(doc: _Doc, path: Path) -> _RawTopology:
                 "give one cable more fiber_pairs instead",
             )
         first[pair] = where
-        # One edge per pair is left (checked above), so the multigraph holds one key here.
-        (attrs,) = graph.get_edge_data(source, target).values()
         table = {k: v for k, v in {**edge_default, **attrs}.items() if k != "id"}
+        for end, role in (("a", "source"), ("b", "target")):
+            if end in table:
+                doc.fail(where, f"attribute '{end}' clashes with the edge's {role} (the site at end {end})")
         cables.append((where, {"a": source, "b": target, **table}))
     return _RawTopology(name=name, fiber_types=fiber_types, sites=sites, cables=cables)
 
@@ -621,11 +707,15 @@ def load_topology(path: str | Path) -> Topology:
         For anything wrong in the file, as ``FILE: WHERE: what``.
     """
     path = Path(path)
+    data = _read_bytes(path)
     if path.suffix.lower() in GRAPHML_SUFFIXES:
         doc = _Doc(str(path), strings_convert=True)
-        return _build_topology(doc, _raw_topology_from_graphml(doc, path), path)
-    _require_toml_suffix(path)
-    return _topology_from_toml_data(_parse_toml(path), path)
+        return _build_topology(doc, _raw_topology_from_graphml(doc, data), path)
+    _require_suffix(path, TOPOLOGY_SUFFIXES)
+    toml_data = _parse_toml(path, data)
+    if "topology" in toml_data and "sites" not in toml_data:
+        _Doc(str(path)).fail(TOP, "this is a scenario file (it has a 'topology' key), not a topology")
+    return _topology_from_toml_data(toml_data, path)
 
 
 def _topology_from_toml_data(data: Mapping[str, Any], path: Path) -> Topology:
@@ -633,9 +723,20 @@ def _topology_from_toml_data(data: Mapping[str, Any], path: Path) -> Topology:
     return _build_topology(doc, _raw_topology_from_toml(doc, data), path)
 
 
-def _require_toml_suffix(path: Path) -> None:
-    if path.suffix.lower() != ".toml":
-        raise InputError(str(path), "file", f"unknown file type '{path.suffix}': expected .toml, .graphml or .xml")
+TOPOLOGY_SUFFIXES = (".toml", *GRAPHML_SUFFIXES)
+
+
+def _suffix_problem(path: Path, suffixes: tuple[str, ...]) -> str | None:
+    if path.suffix.lower() in suffixes:
+        return None
+    shown = f"'{path.suffix}'" if path.suffix else "(none)"
+    return f"unknown file type {shown}: expected {' or '.join(suffixes)}"
+
+
+def _require_suffix(path: Path, suffixes: tuple[str, ...]) -> None:
+    problem = _suffix_problem(path, suffixes)
+    if problem:
+        _Doc(str(path)).fail("file", problem)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -662,13 +763,13 @@ def _traffic(doc: _Doc, table: Mapping[str, Any], scenario_file: Path, topology:
         wheres = ["traffic.load_erlang"]
     for load_where, load in zip(wheres, loads):
         if load <= 0:
-            doc.fail(load_where, f"must be > 0, got {load!r}")
+            doc.fail(load_where, f"must be > 0, got {_number(load)}")
 
     values: dict[str, Any] = {"pattern": pattern, "loads_erlang": loads}
     if "mean_holding" in table:
         holding = _as_float(doc, "traffic.mean_holding", table["mean_holding"])
         if holding <= 0:
-            doc.fail("traffic.mean_holding", f"must be > 0, got {table['mean_holding']!r}")
+            doc.fail("traffic.mean_holding", f"must be > 0, got {_number(holding)}")
         values["mean_holding"] = holding
     if "sizes_gbps" in table:
         values["sizes_gbps"] = _sizes(doc, table["sizes_gbps"])
@@ -677,7 +778,7 @@ def _traffic(doc: _Doc, table: Mapping[str, Any], scenario_file: Path, topology:
         if "matrix" not in table:
             doc.fail(where, "missing required key 'matrix' (the CSV file of pattern 'matrix')")
         matrix_name = _as_str(doc, "traffic.matrix", table["matrix"])
-        matrix_file = _resolve(scenario_file, matrix_name)
+        matrix_file = _resolve(doc, "traffic.matrix", scenario_file, matrix_name)
         values["matrix"] = _read_matrix(matrix_file, _read_bytes(matrix_file, doc, "traffic.matrix"), topology)
         values["matrix_file"] = matrix_file
     elif "matrix" in table:
@@ -712,7 +813,7 @@ def _sizes(doc: _Doc, value: Any) -> tuple[tuple[float, float], ...]:
         by_size[size] = key
         prob = _as_float(doc, key_where, prob_value)
         if not 0 < prob <= 1:
-            doc.fail(key_where, f"probability must be > 0 and <= 1, got {prob_value!r}")
+            doc.fail(key_where, f"probability must be > 0 and <= 1, got {_number(prob)}")
         pairs.append((size, prob))
     total = math.fsum(p for _, p in pairs)
     if abs(total - 1.0) > SIZE_PROBABILITY_TOLERANCE:
@@ -768,9 +869,11 @@ def _matrix_row(
     try:
         weight = float(weight_text)
     except ValueError:
-        doc.fail(where, f"weight '{weight_text}' is not a number")
-    if not math.isfinite(weight) or weight < 0:
-        doc.fail(where, f"weight must be a finite number >= 0, got '{weight_text}'")
+        doc.fail(where, f"weight must be a number, got '{_shorten(weight_text)}'")
+    if not math.isfinite(weight):
+        doc.fail(where, f"weight must be a finite number, got '{_shorten(weight_text)}'")
+    if weight < 0:
+        doc.fail(where, f"weight must be >= 0, got {_shorten(weight_text)}")
     pair = frozenset((a, b))
     if pair in first_line:
         doc.fail(where, f"pair {a},{b} is already given on line {first_line[pair]}")
@@ -817,7 +920,7 @@ def _check_allowed(doc: _Doc, where: str, arch: Architecture, topology: Topology
     for type_name in used:
         reason = why_not_allowed(arch, topology.fiber_types[type_name])
         if reason is not None:
-            raise ConfigurationError(doc.file, _at(where, key), reason)
+            doc.fail(_at(where, key), reason, kind=ConfigurationError)
 
 
 def _section(doc: _Doc, data: Mapping[str, Any], key: str, cls: type) -> Any:
@@ -828,6 +931,8 @@ def _section(doc: _Doc, data: Mapping[str, Any], key: str, cls: type) -> Any:
 
 def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
     doc = _Doc(str(path))
+    if "topology" not in data and "sites" in data:
+        doc.fail(TOP, "this is a topology file (it has no 'topology' key), not a scenario")
     _check_keys(doc, TOP, data, SCENARIO_KEYS)
     for key in ("topology", "traffic", "architectures"):
         if key not in data:
@@ -837,8 +942,11 @@ def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
     if seed < 0:
         doc.fail("seed", f"must be >= 0, got {seed}")
 
-    topology_path = _resolve(path, _as_str(doc, "topology", data["topology"]))
+    topology_path = _resolve(doc, "topology", path, _as_str(doc, "topology", data["topology"]))
     _read_bytes(topology_path, doc, "topology")  # a missing file is the scenario's fault
+    problem = _suffix_problem(topology_path, TOPOLOGY_SUFFIXES)
+    if problem:
+        doc.fail("topology", problem)
     topology = load_topology(topology_path)
 
     traffic = _traffic(doc, _table(doc, "traffic", data["traffic"]), path, topology)
@@ -874,8 +982,15 @@ def _forecast(doc: _Doc, value: Any) -> ForecastSpec:
     if forecast.factors and len(forecast.factors) != forecast.years:
         doc.fail(
             "forecast.factors",
-            f"{len(forecast.factors)} factors for {forecast.years} years: give one per year 1..{forecast.years}, "
-            "or none to use growth_per_year",
+            f"has {len(forecast.factors)} values for {forecast.years} years: give one per year "
+            f"(1..{forecast.years}), or leave it out to use growth_per_year",
+        )
+    try:
+        forecast.factor(forecast.years)
+    except OverflowError:
+        doc.fail(
+            "forecast.growth_per_year",
+            f"growth {forecast.growth_per_year:g} per year over {forecast.years} years is too large to compute",
         )
     return forecast
 
@@ -900,7 +1015,7 @@ def _apply_overrides(data: dict[str, Any], overrides: Mapping[str, Any]) -> dict
     merged = {k: (dict(v) if isinstance(v, Mapping) else v) for k, v in data.items()}
     for key, value in overrides.items():
         if key not in known:
-            raise InputError(COMMAND_LINE, str(key), f"unknown setting{_suggest(str(key), known)}")
+            raise _error(InputError, COMMAND_LINE, str(key), f"unknown setting{_suggest(str(key), known)}")
         section, _, name = key.rpartition(".")
         if not section:
             merged[name] = value
@@ -936,8 +1051,9 @@ def load_scenario(path: str | Path, *, overrides: Mapping[str, Any] | None = Non
         For an architecture that cannot run on the topology's fiber.
     """
     path = Path(path)
-    _require_toml_suffix(path)
-    data = _parse_toml(path)
+    raw = _read_bytes(path)
+    _require_suffix(path, (".toml",))
+    data = _parse_toml(path, raw)
     return _scenario_with_overrides(data, path, overrides or {})
 
 
@@ -960,10 +1076,11 @@ def load_any(path: str | Path) -> Topology | Scenario:
     file, is a topology.
     """
     path = Path(path)
+    raw = _read_bytes(path)
     if path.suffix.lower() in GRAPHML_SUFFIXES:
         return load_topology(path)
-    _require_toml_suffix(path)
-    data = _parse_toml(path)
+    _require_suffix(path, TOPOLOGY_SUFFIXES)
+    data = _parse_toml(path, raw)
     if "topology" in data:
         return _scenario_from_data(data, path)
     return _topology_from_toml_data(data, path)

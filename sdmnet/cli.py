@@ -90,8 +90,19 @@ def cmd_simulate(args: argparse.Namespace) -> int:
     )
     api.report(result.out_dir)
     _print_summary(result.summary)
+    _warn_unrouted(result.summary)
     print(f"results in {result.out_dir}/ ({result.wall_time_s:.1f} s), report.html")
     return EXIT_OK
+
+
+def _warn_unrouted(summary) -> None:
+    # A pair with no feasible path is blocked outright; say so rather than let it hide in a mean.
+    for name, count in summary.groupby("architecture", sort=False)["unrouted_pairs"].first().items():
+        if count:
+            sys.stderr.write(
+                f"note: {name}: {count} datacenter pair(s) have no feasible path and lose all their "
+                f"demand (see pairs.csv, run.json and `sdmnet paths`)\n"
+            )
 
 
 def cmd_estimate(args: argparse.Namespace) -> int:

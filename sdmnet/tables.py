@@ -226,12 +226,21 @@ def cable_table(scenario: Scenario, points: Sequence[PointSummary]) -> pd.DataFr
     return pd.DataFrame(rows)
 
 
+def _default_mode() -> int:
+    # mkstemp creates 0600 files; results should get the permissions of any other new file.
+    umask = os.umask(0)
+    os.umask(umask)
+    return 0o666 & ~umask
+
+
 def _atomic_write(path: Path, write) -> None:
+    """Write through a temporary file and rename, so a reader never sees half a file."""
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=".tmp-", suffix=path.suffix)
     os.close(fd)
     try:
         write(tmp)
+        os.chmod(tmp, _default_mode())
         os.replace(tmp, path)
     finally:
         if os.path.exists(tmp):

@@ -1,0 +1,192 @@
+"""Figures: every drawing writes a PNG, the same tables give the same bytes, and the look holds."""
+
+from __future__ import annotations
+
+import struct
+import zlib
+from pathlib import Path
+
+import matplotlib.pyplot as plt
+import pandas as pd
+import pytest
+
+from sdmnet import figures
+
+
+def png_chunks(data: bytes) -> list[tuple[bytes, bytes]]:
+    """(type, payload) of every chunk, checking each CRC (PNG specification, ISO/IEC 15948, section 5.3)."""
+    assert data[:8] == b"\x89PNG\r\n\x1a\n", "not a PNG signature"
+    out, pos = [], 8
+    while pos < len(data):
+        (length,) = struct.unpack(">I", data[pos : pos + 4])
+        kind = data[pos + 4 : pos + 8]
+        payload = data[pos + 8 : pos + 8 + length]
+        (crc,) = struct.unpack(">I", data[pos + 8 + length : pos + 12 + length])
+        assert zlib.crc32(kind + payload) == crc, f"bad CRC in {kind!r}"
+        out.append((kind, payload))
+        pos += 12 + length
+    return out
+
+
+def summary_frame() -> pd.DataFrame:
+    """Invented results: two architectures, three loads, one point with no blocking."""
+    rows = []
+    for arch, switching, scale, ports in (("fine", "independent", 1.0, 40), ("coarse", "joint", 4.0, 8)):
+        for load, b in ((10.0, 0.0), (20.0, 0.004), (30.0, 0.03)):
+            value = b * scale
+            rows.append(
+                {
+                    "architecture": arch,
+                    "switching": switching,
+                    "load_erlang": load,
+                    "blocking": value,
+                    "blocking_ci_low": max(value - 0.002, 0.0),
+                    "blocking_ci_high": value + 0.002,
+                    "bandwidth_blocking": value * 1.5,
+                    "bandwidth_blocking_ci_low": value,
+                    "bandwidth_blocking_ci_high": value * 2 + 0.001,
+                    "transceivers_peak": 10 * load / scale,
+                    "transceivers_mean": 7 * load / scale,
+                    "switch_ports": ports,
+                    "fiber_pairs": 3,
+                }
+            )
+    return pd.DataFrame(rows)
+
+
+SITES = [
+    {"id": "A", "role": "datacenter", "x_km": 0.0, "y_km": 0.0},
+    {"id": "B", "role": "datacenter", "x_km": 40.0, "y_km": 0.0},
+    {"id": "H", "role": "hub", "x_km": 20.0, "y_km": 15.0},
+]
+CABLES = [
+    {"a": "A", "b": "H", "fiber_pairs": 2},
+    {"a": "H", "b": "B", "fiber_pairs": 1},
+    {"a": "A", "b": "B", "fiber_pairs": 1},
+]
+
+
+def utilisation_frame() -> pd.DataFrame:
+    rows = []
+    for arch in ("fine", "coarse"):
+        for load in (10.0, 30.0):
+            for cable, u in (("A-H", 0.2), ("H-B", 0.5), ("A-B", 0.9)):
+                rows.append(
+                    {"architecture": arch, "load_erlang": load, "cable": cable, "utilisation": u * load / 30}
+                )
+    return pd.DataFrame(rows)
+
+
+def forecast_totals_frame() -> pd.DataFrame:
+    rows = []
+    for arch in ("fine", "coarse"):
+        for year in range(4):
+            rows.append(
+                {
+                    "year": year,
+                    "architecture": arch,
+                    "fiber_pairs": 4 + year,
+                    "transceivers_peak": 100 * 1.3**year,
+                    "switch_ports": 20 + 4 * year,
+                }
+            )
+    return pd.DataFrame(rows)
+
+
+def estimate_frame() -> pd.DataFrame:
+    return pd.DataFrame(
+        [
+            {"architecture": a, "load_erlang": load, "blocking": b, "bandwidth_blocking": b * 1.4}
+            for a, k in (("fine", 1.0), ("coarse", 4.0))
+            for load, b in ((10.0, 1e-4 * k), (20.0, 3e-3 * k), (30.0, 2e-2 * k))
+        ]
+    )
+
+
+def plan_frame() -> pd.DataFrame:
+    return pd.DataFrame(
+        [
+            {"architecture": a, "cable": c, "fiber_pairs": p + extra}
+            for a, extra in (("fine", 0), ("coarse", 2))
+            for c, p in (("A-H", 2), ("H-B", 1), ("A-B", 1))
+        ]
+    )
+
+
+DRAWINGS = {
+    "blocking": lambda path: figures.blocking_figure(summary_frame(), path),
+    "bandwidth": lambda path: figures.blocking_figure(summary_frame(), path, column="bandwidth_blocking"),
+    "resources": lambda path: figures.resources_figure(summary_frame(), path),
+    "topology": lambda path: figures.topology_figure(SITES, CABLES, path, utilisation_frame()),
+    "topology-plain": lambda path: figures.topology_figure(SITES, CABLES, path),
+    "topology-schematic": lambda path: figures.topology_figure(
+        [{"id": s["id"], "role": s["role"]} for s in SITES], CABLES, path, utilisation_frame()
+    ),
+    "forecast": lambda path: figures.forecast_figure(forecast_totals_frame(), path),
+    "estimate": lambda path: figures.estimate_figure(estimate_frame(), summary_frame(), path),
+    "estimate-alone": lambda path: figures.estimate_figure(estimate_frame(), None, path),
+    "plan": lambda path: figures.plan_figure(plan_frame(), path),
+}
+
+
+@pytest.mark.parametrize("name", sorted(DRAWINGS))
+def test_each_figure_is_a_stable_png_without_varying_metadata(name: str, tmp_path: Path) -> None:
+    first = DRAWINGS[name](tmp_path / "one.png").read_bytes()
+    second = DRAWINGS[name](tmp_path / "two.png").read_bytes()
+    assert first == second, "same tables must give the same PNG bytes"
+    chunks = png_chunks(first)
+    kinds = [k for k, _ in chunks]
+    assert kinds[0] == b"IHDR" and kinds[-1] == b"IEND"
+    # tIME is a modification time (ISO/IEC 15948, section 11.3.6.1): it must never appear.
+    assert b"tIME" not in kinds
+    texts = [payload.split(b"\0", 1)[0] for k, payload in chunks if k in (b"tEXt", b"iTXt", b"zTXt")]
+    assert b"Software" not in texts and b"Creation Time" not in texts
+    width, height = struct.unpack(">II", chunks[0][1][:8])
+    assert width > 300 and height > 200
+
+
+def test_a_users_rc_settings_do_not_change_the_figure(tmp_path: Path) -> None:
+    plain = figures.blocking_figure(summary_frame(), tmp_path / "plain.png").read_bytes()
+    with plt.rc_context(
+        {"font.size": 20, "axes.facecolor": "red", "lines.linewidth": 9, "errorbar.capsize": 12}
+    ):
+        styled = figures.blocking_figure(summary_frame(), tmp_path / "styled.png").read_bytes()
+    assert plain == styled
+
+
+def test_series_differ_in_marker_and_dash_not_only_colour() -> None:
+    # Greyscale and colour-blind readers need a second cue (common practice, no source).
+    styles = [figures.style_for(i) for i in range(len(figures.STYLE_CYCLE))]
+    assert len({s["marker"] for s in styles}) == len(styles)
+    assert len({str(s["linestyle"]) for s in styles}) == len(styles)
+    assert len({s["color"] for s in styles}) == len(styles)
+    hatches = [figures.bar_style_for(i)["hatch"] for i in range(len(figures.HATCHES))]
+    assert len(set(hatches)) == len(hatches)
+
+
+def test_utilisation_map_darkens_monotonically() -> None:
+    # Greyscale safety: perceived lightness must fall as utilisation rises.  Luma weights from
+    # ITU-R BT.601 (Y' = 0.299 R' + 0.587 G' + 0.114 B').
+    lumas = []
+    for i in range(11):
+        r, g, b, _ = figures.UTILISATION_CMAP(i / 10)
+        lumas.append(0.299 * r + 0.587 * g + 0.114 * b)
+    assert all(a > b for a, b in zip(lumas, lumas[1:]))
+    assert lumas[0] < 0.9, "the idle end must stay visible on a white page"
+
+
+def test_blocking_figure_copes_with_no_blocking_and_missing_intervals(tmp_path: Path) -> None:
+    frame = summary_frame().assign(blocking=0.0, blocking_ci_low=float("nan"), blocking_ci_high=float("nan"))
+    path = figures.blocking_figure(frame, tmp_path / "zero.png")
+    assert png_chunks(path.read_bytes())[0][0] == b"IHDR"
+
+
+def test_blocking_figure_keeps_the_public_signature(tmp_path: Path) -> None:
+    path = figures.blocking_figure(
+        summary_frame(),
+        tmp_path / "b.png",
+        column="bandwidth_blocking",
+        title="Bandwidth blocking vs offered load (95 % intervals)",
+    )
+    assert path == tmp_path / "b.png" and path.stat().st_size > 10_000
+    assert not plt.get_fignums(), "figures must be closed after saving"

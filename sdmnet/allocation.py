@@ -1,9 +1,6 @@
 """Occupancy of the cables: which units are free, first-fit search, exact release.
 
-State is kept as bitmasks on Python integers, which are arbitrary-precision and whose
-``&``, ``|`` and ``x & -x`` run in C: one integer per (cable, fiber, core group) holds the free
-channels (bit w set = channel w free).  First fit over a path is an AND of the masks of its
-hops followed by isolating the lowest set bit.
+State is kept as bitmasks on Python integers, whose ``&``, ``|`` and ``x & -x`` run in C.
 
 Two kinds of state:
 
@@ -12,7 +9,9 @@ Two kinds of state:
 * :class:`FiberState` for ``fiber`` switching: a unit is a whole fiber on every hop.
 
 Both return a *grant* from ``take`` (None when the demand does not fit) that ``give_back``
-releases exactly.  A grant is a list of ``(cable, position, bit)`` triples.
+releases exactly.  A grant is a list of ``(cable, position, bit)`` triples: ``position`` is
+``fiber * groups + group`` (0 for fiber switching) and ``bit`` is ``1 << channel`` (``1 << fiber``
+for fiber switching).
 """
 
 from __future__ import annotations
@@ -41,9 +40,13 @@ class UnitState:
 
     Notes
     -----
-    Position ``pos = fiber * groups + group`` indexes ``free[cable]``.  First fit takes the
-    lowest channel, then the lowest core group, then the lowest fiber (MODEL.md section 3);
-    ``_order[cable]`` lists positions in that order.
+    First fit takes the lowest channel, then the lowest core group, then the lowest fiber
+    (MODEL.md section 3).  For each cable and channel one integer holds the free positions as
+    bits in that very order (bit ``group * fibers + fiber``), so the first free position on a
+    hop is its lowest set bit: no scan over positions.  Two summaries are kept current so that
+    the path search never looks at positions either: ``any_free[cable]``, the channels free at
+    some position (used with lane change), and ``group_free[cable][group]``, the channels free
+    in that core group on some fiber (used without).
     """
 
     def __init__(
@@ -55,105 +58,148 @@ class UnitState:
     ) -> None:
         self.channels = list(channels)
         self.lane_change = lane_change
-        self.fulls = [(1 << w) - 1 for w in self.channels]
-        self.full = max(self.fulls, default=0)
-        self.groups = list(groups_per_fiber)
         self.fibers = list(fiber_pairs)
-        self.free: list[list[int]] = [[m] * (f * g) for m, f, g in zip(self.fulls, self.fibers, self.groups)]
-        # Positions in first-fit order: group-major, then fiber.
-        self._order = [[f * g + c for c in range(g) for f in range(nf)] for nf, g in zip(self.fibers, self.groups)]
-        # OR over positions (lane change) or per group over fibers (no lane change), kept current
-        # so that the path search never scans positions.
-        self.any_free = [m if f * g else 0 for m, f, g in zip(self.fulls, self.fibers, self.groups)]
-        self.group_free = [[m if nf else 0] * g for m, nf, g in zip(self.fulls, self.fibers, self.groups)]
-        self.busy_units = [0] * len(self.fibers)
+        self.groups = list(groups_per_fiber)
+        ncables = len(self.fibers)
+        fulls = [(1 << w) - 1 if f * g else 0 for w, f, g in zip(self.channels, self.fibers, self.groups)]
+        self.full = max(fulls, default=0)
+        # Per cable: all positions free, as order bits.
+        self._all_slots = [(1 << (f * g)) - 1 for f, g in zip(self.fibers, self.groups)]
+        self._slots: list[list[int]] = [[m] * w for m, w in zip(self._all_slots, self.channels)]
+        # Order index i = group * fibers + fiber  <->  position fiber * groups + group.
+        self._pos_of = [[(i % f) * g + i // f for i in range(f * g)] for f, g in zip(self.fibers, self.groups)]
+        self._bit_of_pos: list[list[int]] = [[0] * (f * g) for f, g in zip(self.fibers, self.groups)]
+        for h in range(ncables):
+            for i, pos in enumerate(self._pos_of[h]):
+                self._bit_of_pos[h][pos] = 1 << i
+        # Order bits of each core group (a contiguous run of `fibers` bits).
+        self._group_bits = [[((1 << f) - 1) << (c * f) for c in range(g)] for f, g in zip(self.fibers, self.groups)]
+        self.any_free = list(fulls)
+        self.group_free = [[m] * g for m, g in zip(fulls, self.groups)]
+        self.busy_units = [0] * ncables
+        # Bound once here, so the engine's calls skip a dispatch on `lane_change`.
+        self.take = self._take_lane_change if lane_change else self._take_same_group
+        self.give_back = self._give_back_lane_change if lane_change else self._give_back_same_group
 
     def capacity_units(self, cable: int) -> int:
         """Unit positions on ``cable``."""
         return self.fibers[cable] * self.groups[cable] * self.channels[cable]
 
-    def take(self, cables: Sequence[int], n: int) -> Grant | None:
+    def take(self, cables: Sequence[int], n: int) -> Grant | None:  # replaced per instance in __init__
         """Take ``n`` units on every hop of ``cables`` by first fit, or None (nothing taken)."""
+        if self.lane_change:
+            return self._take_lane_change(cables, n)
+        return self._take_same_group(cables, n)
+
+    def _take_lane_change(self, cables: Sequence[int], n: int) -> Grant | None:
+        any_free, slots, pos_of, busy = self.any_free, self._slots, self._pos_of, self.busy_units
         grant: Grant = []
-        take_one = self._take_one_lane_change if self.lane_change else self._take_one_same_group
         for _ in range(n):
-            if not take_one(cables, grant):
-                self.give_back(grant)
-                return None
-        return grant
-
-    def _take_one_lane_change(self, cables: Sequence[int], grant: Grant) -> bool:
-        any_free = self.any_free
-        avail = self.full
-        for h in cables:
-            avail &= any_free[h]
-        if not avail:
-            return False
-        bit = avail & -avail
-        for h in cables:
-            fr = self.free[h]
-            for pos in self._order[h]:
-                if fr[pos] & bit:
-                    fr[pos] ^= bit
-                    break
-            grant.append((h, pos, bit))
-            self.busy_units[h] += 1
-            # The channel stays available on this cable if any other position still has it.
-            for mask in fr:
-                if mask & bit:
-                    break
-            else:
-                any_free[h] &= ~bit
-        return True
-
-    def _take_one_same_group(self, cables: Sequence[int], grant: Grant) -> bool:
-        best_bit = 0
-        best_group = -1
-        groups = self.groups[cables[0]]
-        for c in range(groups):
             avail = self.full
             for h in cables:
-                avail &= self.group_free[h][c]
-                if not avail:
-                    break
-            if avail:
-                bit = avail & -avail
-                if best_group < 0 or bit < best_bit:
-                    best_bit, best_group = bit, c
-        if best_group < 0:
-            return False
-        bit, c = best_bit, best_group
-        for h in cables:
-            fr = self.free[h]
-            g = self.groups[h]
-            for f in range(self.fibers[h]):
-                pos = f * g + c
-                if fr[pos] & bit:
-                    fr[pos] ^= bit
-                    break
-            grant.append((h, pos, bit))
-            self.busy_units[h] += 1
-            for f in range(self.fibers[h]):
-                if fr[f * g + c] & bit:
-                    break
-            else:
-                self.group_free[h][c] &= ~bit
-        return True
+                avail &= any_free[h]
+            if not avail:
+                if grant:
+                    self._give_back_lane_change(grant)
+                return None
+            bit = avail & -avail
+            w = bit.bit_length() - 1
+            for h in cables:
+                row = slots[h]
+                free = row[w]
+                low = free & -free
+                free ^= low
+                row[w] = free
+                if not free:
+                    any_free[h] ^= bit
+                grant.append((h, pos_of[h][low.bit_length() - 1], bit))
+                busy[h] += 1
+        return grant
 
-    def give_back(self, grant: Grant) -> None:
-        """Release every unit of ``grant`` exactly."""
+    def _take_same_group(self, cables: Sequence[int], n: int) -> Grant | None:
+        any_free, group_free, slots, busy = self.any_free, self.group_free, self._slots, self.busy_units
+        pos_of, group_bits = self._pos_of, self._group_bits
+        groups = range(self.groups[cables[0]])
+        grant: Grant = []
+        for _ in range(n):
+            best_bit, best_group = 0, -1
+            for c in groups:
+                avail = self.full
+                for h in cables:
+                    avail &= group_free[h][c]
+                    if not avail:
+                        break
+                if avail:
+                    bit = avail & -avail
+                    if best_group < 0 or bit < best_bit:
+                        best_bit, best_group = bit, c
+                        if bit == 1:  # channel 0 in the lowest group with it: nothing beats it
+                            break
+            if best_group < 0:
+                if grant:
+                    self._give_back_same_group(grant)
+                return None
+            bit, c = best_bit, best_group
+            w = bit.bit_length() - 1
+            for h in cables:
+                row = slots[h]
+                free = row[w]
+                in_group = group_bits[h][c]
+                low = free & in_group
+                low &= -low
+                free ^= low
+                row[w] = free
+                if not free & in_group:
+                    group_free[h][c] ^= bit
+                if not free:
+                    any_free[h] ^= bit
+                grant.append((h, pos_of[h][low.bit_length() - 1], bit))
+                busy[h] += 1
+        return grant
+
+    def give_back(self, grant: Grant) -> None:  # replaced per instance in __init__
+        """Release every unit of ``grant`` exactly.
+
+        Raises
+        ------
+        AssertionError
+            If a unit of the grant is already free (released twice).
+        """
+        if self.lane_change:
+            self._give_back_lane_change(grant)
+        else:
+            self._give_back_same_group(grant)
+
+    def _release_one(self, h: int, pos: int, bit: int) -> None:
+        row = self._slots[h]
+        w = bit.bit_length() - 1
+        own = self._bit_of_pos[h][pos]
+        if row[w] & own:
+            raise AssertionError(f"unit released twice: cable {h} position {pos} bit {bit}")
+        row[w] |= own
+        self.any_free[h] |= bit
+        self.busy_units[h] -= 1
+
+    def _give_back_lane_change(self, grant: Grant) -> None:
+        slots, bit_of_pos, any_free, busy = self._slots, self._bit_of_pos, self.any_free, self.busy_units
         for h, pos, bit in grant:
-            fr = self.free[h]
-            if fr[pos] & bit:
+            row = slots[h]
+            w = bit.bit_length() - 1
+            own = bit_of_pos[h][pos]
+            if row[w] & own:
                 raise AssertionError(f"unit released twice: cable {h} position {pos} bit {bit}")
-            fr[pos] |= bit
-            self.any_free[h] |= bit
+            row[w] |= own
+            any_free[h] |= bit
+            busy[h] -= 1
+
+    def _give_back_same_group(self, grant: Grant) -> None:
+        for h, pos, bit in grant:
+            self._release_one(h, pos, bit)
             self.group_free[h][pos % self.groups[h]] |= bit
-            self.busy_units[h] -= 1
 
     def is_empty(self) -> bool:
         """True when every unit of every cable is free."""
-        return all(mask == full for fr, full in zip(self.free, self.fulls) for mask in fr)
+        return all(free == full for row, full in zip(self._slots, self._all_slots) for free in row)
 
 
 class FiberState:
@@ -182,21 +228,29 @@ class FiberState:
                 return None
         grant: Grant = []
         for h in cables:
+            mask = free[h]
             for _ in range(n):
-                mask = free[h]
                 bit = mask & -mask
-                free[h] = mask ^ bit
+                mask ^= bit
                 grant.append((h, 0, bit))
+            free[h] = mask
             self.busy_units[h] += n
         return grant
 
     def give_back(self, grant: Grant) -> None:
-        """Release every fiber of ``grant`` exactly."""
+        """Release every fiber of ``grant`` exactly.
+
+        Raises
+        ------
+        AssertionError
+            If a fiber of the grant is already free (released twice).
+        """
+        free, busy = self.free, self.busy_units
         for h, _pos, bit in grant:
-            if self.free[h] & bit:
+            if free[h] & bit:
                 raise AssertionError(f"fiber released twice: cable {h} bit {bit}")
-            self.free[h] |= bit
-            self.busy_units[h] -= 1
+            free[h] |= bit
+            busy[h] -= 1
 
     def is_empty(self) -> bool:
         """True when every fiber of every cable is free."""

@@ -5,9 +5,11 @@ Flow: :func:`prepare` turns a scenario and an architecture into an :class:`Engin
 runs a SimPy environment over it and returns a :class:`ReplicationRecord` (counts and
 time averages only, so memory does not grow with the number of requests).
 
-Events are objects: an arrival is a SimPy timeout whose callback books the demand and schedules
-the next arrival; a departure is a timeout whose value is the booking and whose callback
-releases it.  No process per request.
+Departures are events on SimPy's queue: each accepted demand is one event (its own booking,
+see :class:`_Departure`) whose callback releases it; no process per request.  Arrivals are a
+plain loop over batched random draws that lets SimPy process every departure due before each
+arrival (``env.peek`` / ``env.step``): the arrival chain costs no SimPy event, which halves the
+events per request.
 
 Random numbers come from four independent streams per replication (interarrival times, pair,
 size, holding time), spawned from ``SeedSequence(scenario.seed, spawn_key=(replication,))``.
@@ -20,12 +22,12 @@ from __future__ import annotations
 
 import math
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from dataclasses import asdict, dataclass, field
-from operator import add
 
 import numpy as np
 import simpy
+from simpy.events import NORMAL
 
 from .allocation import FiberState, Grant, UnitState
 from .architectures import cable_geometries, units_needed
@@ -218,43 +220,69 @@ def replication_seed(seed: int, replication: int) -> np.random.SeedSequence:
     return np.random.SeedSequence(seed, spawn_key=(replication,))
 
 
-class _Streams:
-    """Batched draws from four independent generators (one per random quantity)."""
+def _draws(seq: np.random.SeedSequence, setup: EngineSetup, rate: float) -> Iterator[tuple[float, int, int, float]]:
+    """Endless ``(gap, pair, size class, holding time)`` records from four independent generators.
 
-    def __init__(self, seq: np.random.SeedSequence, setup: EngineSetup, rate: float) -> None:
-        self._gens = [np.random.default_rng(s) for s in seq.spawn(4)]
-        self._rate = rate
-        self._pair_cum = np.asarray(setup.pair_cumulative)
-        self._size_cum = np.asarray(setup.size_cumulative)
-        self._hold = setup.mean_holding
-        self._i = _BATCH
-        self._refill()
-
-    def _refill(self) -> None:
-        ga, gp, gs, gh = self._gens
-        self.gaps = (ga.standard_exponential(_BATCH) / self._rate).tolist()
+    Drawn in batches of :data:`_BATCH` per generator (numpy per batch, plain Python floats and
+    ints per record), so the per-arrival cost is one tuple from a ``zip``.
+    """
+    ga, gp, gs, gh = (np.random.default_rng(s) for s in seq.spawn(4))
+    pair_cum, size_cum = np.asarray(setup.pair_cumulative), np.asarray(setup.size_cumulative)
+    last_pair, last_size = len(pair_cum) - 1, len(size_cum) - 1
+    while True:
+        gaps = (ga.standard_exponential(_BATCH) / rate).tolist()
         # Inverse CDF; min() guards against a uniform at the very top of float rounding.
-        npairs, nsizes = len(self._pair_cum), len(self._size_cum)
-        self.pair = np.minimum(np.searchsorted(self._pair_cum, gp.random(_BATCH), side="right"), npairs - 1).tolist()
-        self.size = np.minimum(np.searchsorted(self._size_cum, gs.random(_BATCH), side="right"), nsizes - 1).tolist()
-        self.hold = (gh.standard_exponential(_BATCH) * self._hold).tolist()
-        self._i = 0
-
-    def next(self) -> tuple[float, int, int, float]:
-        if self._i == _BATCH:
-            self._refill()
-        i = self._i
-        self._i = i + 1
-        return self.gaps[i], self.pair[i], self.size[i], self.hold[i]
+        pairs = np.minimum(np.searchsorted(pair_cum, gp.random(_BATCH), side="right"), last_pair).tolist()
+        sizes = np.minimum(np.searchsorted(size_cum, gs.random(_BATCH), side="right"), last_size).tolist()
+        holds = (gh.standard_exponential(_BATCH) * setup.mean_holding).tolist()
+        yield from zip(gaps, pairs, sizes, holds)
 
 
-class _Booking:
-    """What one accepted demand holds, released exactly at its departure."""
+class _Departure(simpy.events.Event):
+    """The end of one accepted demand: a SimPy event, already triggered, scheduled at the
+    demand's departure time; its callback releases exactly what the demand holds.
 
-    __slots__ = ("grant", "modules", "lanes", "a", "b", "parts")
+    It is its own booking (no separate value object), built without :class:`simpy.Timeout`'s
+    checks, since the holding time is a non-negative draw.
 
-    def __init__(self, grant: Grant, modules: int, lanes: int, a: int, b: int, parts: list) -> None:
+    Attributes
+    ----------
+    grant : Grant
+        Units taken for the demand alone (empty when it rides on shared units).
+    cables : tuple of int
+        The route's cables (for the time-average bookkeeping of ``grant``).
+    units : int
+        Units of ``grant`` on each of ``cables``.
+    modules, lanes : int
+        Transceiver modules and lanes the demand holds (both ends together).
+    a, b : int
+        Site indices of its ends.
+    parts : tuple or list of (_LitUnit, float)
+        Shared units it rides on and the capacity it uses in each.
+    """
+
+    # Triggered successfully from birth, with no value (class attributes: one less store each).
+    _ok = True
+    _value = None
+
+    def __init__(
+        self,
+        env: simpy.Environment,
+        callbacks: list,
+        grant: Grant,
+        cables: tuple[int, ...],
+        units: int,
+        modules: int,
+        lanes: int,
+        a: int,
+        b: int,
+        parts: tuple | list,
+    ) -> None:
+        self.env = env
+        self.callbacks = callbacks
         self.grant = grant
+        self.cables = cables
+        self.units = units
         self.modules = modules
         self.lanes = lanes
         self.a = a
@@ -269,15 +297,41 @@ class _LitUnit:
     stay lit until the last demand it carries departs.
     """
 
-    __slots__ = ("grant", "spare", "used", "key", "modules", "lanes")
+    __slots__ = ("grant", "spare", "used", "key", "modules", "lanes", "cables")
 
-    def __init__(self, grant: Grant, spare: float, key: tuple[int, int], modules: int, lanes: int) -> None:
+    def __init__(
+        self, grant: Grant, spare: float, key: tuple[int, int], modules: int, lanes: int, cables: tuple[int, ...]
+    ) -> None:
         self.grant = grant
         self.spare = spare
         self.used = 0.0
         self.key = key
         self.modules = modules
         self.lanes = lanes
+        self.cables = cables
+
+
+def _route_table(setup: EngineSetup) -> list[tuple[tuple[tuple[int, ...], tuple[int, ...], tuple[int, ...],
+                                                        tuple[int, ...]], ...]]:
+    """Per pair, per route in order: ``(cables, units, modules, lanes)``, the last three per size class.
+
+    Modules and lanes count both ends of the demand.  Under fiber switching they follow from the
+    size alone: ceil(size / lane) single-lane modules per end (MODEL.md section 2).
+    """
+    table = []
+    for p, routes in enumerate(setup.routes):
+        rows = []
+        for r, cables in enumerate(routes):
+            units = setup.route_units[p][r]
+            if setup.whole_fiber:
+                ends = tuple(2 * max(1, math.ceil(s / setup.lane_gbps - 1e-9)) for s in setup.sizes_gbps)
+                modules, lanes = ends, ends
+            else:
+                modules = tuple(2 * n for n in units)
+                lanes = tuple(2 * n * setup.route_lanes_per_unit[p][r] for n in units)
+            rows.append((tuple(cables), tuple(units), modules, lanes))
+        table.append(tuple(rows))
+    return table
 
 
 def simulate_replication(
@@ -317,14 +371,25 @@ def simulate_replication(
     Returns
     -------
     ReplicationRecord
+
+    Notes
+    -----
+    Memory holds counters and the demands in flight, whatever ``requests`` is.
+
+    Time averages ("Poisson arrivals see time averages": the mean of the state seen by the
+    measured arrivals) are kept without touching every cable and site at each arrival: with
+    ``m`` the number of measured arrivals so far, a change ``d`` of a figure adds ``-d * m`` to
+    its stamp, and at the end ``sum over arrivals = final value * m_final + stamp``.  This is
+    exact integer arithmetic, the same sum as sampling every figure at every arrival.
     """
     started = time.perf_counter()
     arch = setup.architecture
     if load_erlang <= 0:
         raise ValueError("load_erlang must be positive")
     rate = load_erlang / setup.mean_holding
-    streams = _Streams(replication_seed(seed, replication), setup, rate)
+    next_draw = _draws(replication_seed(seed, replication), setup, rate).__next__
     env = simpy.Environment()
+    schedule = env.schedule
     state: UnitState | FiberState
     if setup.whole_fiber:
         state = FiberState(setup.fiber_pairs)
@@ -336,7 +401,7 @@ def simulate_replication(
     whole_fiber = setup.whole_fiber
     lane = setup.lane_gbps
     sizes = setup.sizes_gbps
-    routes, route_units = setup.routes, setup.route_units
+    route_table = _route_table(setup)
     route_gbps, route_lanes = setup.route_unit_gbps, setup.route_lanes_per_unit
     pair_sites = setup.pair_sites
     nclass, npair, nsite, ncable = len(sizes), len(setup.pairs), len(setup.sites), len(setup.cables)
@@ -348,84 +413,99 @@ def simulate_replication(
     pair_blocked = [0] * npair
     site_modules = [0] * nsite
     site_peak = [0] * nsite
-    site_acc = [0] * nsite
-    cable_acc = [0] * ncable
-    # Scalars that callbacks update live in a list to avoid `nonlocal` lookups.
-    # [arrivals, modules, lanes, modules_peak, lanes_peak, modules_acc, lanes_acc, offered_gbps, blocked_gbps]
-    c = [0, 0, 0, 0, 0, 0, 0, 0.0, 0.0]
+    site_stamp = [0] * nsite
+    cable_stamp = [0] * ncable
+    m = 0  # measured so far
+    modules = lanes = modules_peak = lanes_peak = modules_stamp = lanes_stamp = 0
+    offered_gbps = blocked_gbps = 0.0
     lit: dict[tuple[int, int], list[_LitUnit]] = {}
-    done = env.event()
+    no_parts: tuple = ()
 
-    def depart(event: simpy.events.Event) -> None:
-        booking: _Booking = event._value
-        if booking.grant:
-            give_back(booking.grant)
-        for unit, amount in booking.parts:
+    def change_modules(a: int, b: int, d_modules: int, d_lanes: int) -> None:
+        nonlocal modules, lanes, modules_stamp, lanes_stamp
+        modules += d_modules
+        lanes += d_lanes
+        modules_stamp -= d_modules * m
+        lanes_stamp -= d_lanes * m
+        half = d_modules // 2
+        site_modules[a] += half
+        site_modules[b] += half
+        site_stamp[a] -= half * m
+        site_stamp[b] -= half * m
+
+    def depart(event: _Departure) -> None:
+        nonlocal modules, lanes, modules_stamp, lanes_stamp
+        if event.grant:
+            give_back(event.grant)
+            held = event.units * m
+            for h in event.cables:
+                cable_stamp[h] += held
+        for unit, amount in event.parts:
             unit.used -= amount
             unit.spare += amount
             if unit.used <= 1e-9:
                 give_back(unit.grant)
+                for h in unit.cables:
+                    cable_stamp[h] += m
                 lit[unit.key].remove(unit)
-                _count_modules(booking.a, booking.b, -unit.modules, -unit.lanes)
-        _count_modules(booking.a, booking.b, -booking.modules, -booking.lanes)
+                change_modules(event.a, event.b, -unit.modules, -unit.lanes)
+        # change_modules(a, b, -modules, -lanes), inlined on the hot path.
+        d_modules, d_lanes, a, b = event.modules, event.lanes, event.a, event.b
+        modules -= d_modules
+        lanes -= d_lanes
+        modules_stamp += d_modules * m
+        lanes_stamp += d_lanes * m
+        half = d_modules // 2
+        site_modules[a] -= half
+        site_modules[b] -= half
+        site_stamp[a] += half * m
+        site_stamp[b] += half * m
         if observer is not None:
-            observer("release", booking)
+            observer("release", event)
 
-    def _count_modules(a: int, b: int, modules: int, lanes: int) -> None:
-        c[1] += modules
-        c[2] += lanes
-        site_modules[a] += modules // 2
-        site_modules[b] += modules // 2
-
-    def book(p: int, k: int, size: float) -> _Booking | None:
-        for r, cables in enumerate(routes[p]):
-            if share:
-                booking = _book_shared(p, r, cables, size)
-                if booking is not None:
-                    return booking
-                continue
-            n = route_units[p][r][k]
-            grant = take(cables, n)
-            if grant is None:
-                continue
-            if whole_fiber:
-                per_end = max(1, math.ceil(size / lane - 1e-9))
-                return _Booking(grant, 2 * per_end, 2 * per_end, *pair_sites[p], [])
-            return _Booking(grant, 2 * n, 2 * n * route_lanes[p][r], *pair_sites[p], [])
-        return None
-
-    def _book_shared(p: int, r: int, cables: tuple[int, ...], size: float) -> _Booking | None:
-        # Spare capacity of units already lit on this route first, then new units.
-        units = lit.setdefault((p, r), [])
-        plan, need = [], size
-        for unit in units:
-            if need <= 1e-9:
-                break
-            if unit.spare > 1e-9:
-                amount = min(unit.spare, need)
-                plan.append((unit, amount))
-                need -= amount
-        gbps = route_gbps[p][r]
-        new = max(0, math.ceil(need / gbps - 1e-9)) if need > 1e-9 else 0
-        grants: list[Grant] = []
-        if new:
+    def book_shared(p: int, size: float) -> _Departure | None:
+        for r, (cables, _units, _modules, _lanes) in enumerate(route_table[p]):
+            # Spare capacity of units already lit on this route first, then new units.
+            units = lit.setdefault((p, r), [])
+            plan, need = [], size
+            for unit in units:
+                if need <= 1e-9:
+                    break
+                if unit.spare > 1e-9:
+                    amount = min(unit.spare, need)
+                    plan.append((unit, amount))
+                    need -= amount
+            gbps = route_gbps[p][r]
+            new = max(0, math.ceil(need / gbps - 1e-9)) if need > 1e-9 else 0
+            grants: list[Grant] = []
             # Each new unit is booked separately so that it can be released on its own.
             for _ in range(new):
                 g = take(cables, 1)
                 if g is None:
                     for g_back in grants:
                         give_back(g_back)
-                    return None
+                    break
                 grants.append(g)
+            else:
+                return light_units(p, r, cables, size, plan, need, grants)
+        return None
+
+    def light_units(
+        p: int, r: int, cables: tuple[int, ...], size: float, plan: list, need: float, grants: list
+    ) -> _Departure:
         for unit, amount in plan:
             unit.spare -= amount
             unit.used += amount
         a, b = pair_sites[p]
+        gbps = route_gbps[p][r]
         unit_lanes = 0 if whole_fiber else 2 * route_lanes[p][r]
         unit_modules = 0 if whole_fiber else 2
+        units = lit[(p, r)]
         for g in grants:
-            unit = _LitUnit(g, gbps, (p, r), unit_modules, unit_lanes)
-            _count_modules(a, b, unit_modules, unit_lanes)
+            unit = _LitUnit(g, gbps, (p, r), unit_modules, unit_lanes, cables)
+            for h in cables:
+                cable_stamp[h] -= m
+            change_modules(a, b, unit_modules, unit_lanes)
             amount = min(gbps, need)
             unit.spare -= amount
             unit.used += amount
@@ -434,85 +514,107 @@ def simulate_replication(
             plan.append((unit, amount))
         if whole_fiber:
             per_end = max(1, math.ceil(size / lane - 1e-9))
-            return _Booking([], 2 * per_end, 2 * per_end, a, b, plan)
+            return _Departure(env, [depart], [], cables, 0, 2 * per_end, 2 * per_end, a, b, plan)
         # Under unit switching the modules belong to the lit units (counted above).
-        return _Booking([], 0, 0, a, b, plan)
+        return _Departure(env, [depart], [], cables, 0, 0, 0, a, b, plan)
 
-    def arrive(_event: simpy.events.Event | None) -> None:
-        gap, p, k, hold = streams.next()
-        n = c[0]
-        c[0] = n + 1
-        measured = n >= warmup
-        if n == warmup:
-            c[3], c[4] = c[1], c[2]
-            site_peak[:] = site_modules
+    # Arrivals are a plain loop over the draws; departures are events on SimPy's queue, and the
+    # loop lets SimPy process every departure due before each arrival (env.peek / env.step).
+    # An arrival then books at its own time t: the departure is scheduled `t + hold - now`
+    # after SimPy's clock, which is exact whenever now >= (t + hold) / 2 (Sterbenz), i.e. in
+    # all but the first instants of a run.
+    peek, step = env.peek, env.step
+    t = next_draw()[0] if total > 0 else 0.0
+    for n in range(total):
+        while peek() <= t:
+            step()
+        gap, p, k, hold = next_draw()
         size = sizes[k]
+        measured = n >= warmup
         if measured:
-            # Poisson arrivals see time averages: sample the state just before this arrival.
-            c[5] += c[1]
-            c[6] += c[2]
-            site_acc[:] = map(add, site_acc, site_modules)
-            cable_acc[:] = map(add, cable_acc, busy)
+            if n == warmup:
+                modules_peak, lanes_peak = modules, lanes
+                site_peak[:] = site_modules
+            m += 1
             class_offered[k] += 1
             pair_offered[p] += 1
-            c[7] += size
-        booking = book(p, k, size)
-        if booking is None:
+            offered_gbps += size
+        leave: _Departure | None = None
+        if share:
+            leave = book_shared(p, size)
+            if leave is not None:
+                change_modules(leave.a, leave.b, leave.modules, leave.lanes)
+        else:
+            for cables, units, route_modules, route_lanes_k in route_table[p]:
+                grant = take(cables, units[k])
+                if grant is not None:
+                    a, b = pair_sites[p]
+                    d_modules, d_lanes = route_modules[k], route_lanes_k[k]
+                    leave = _Departure(env, [depart], grant, cables, units[k], d_modules, d_lanes, a, b, no_parts)
+                    held = units[k] * m
+                    for h in cables:
+                        cable_stamp[h] -= held
+                    # change_modules(), inlined on the hot path.
+                    modules += d_modules
+                    lanes += d_lanes
+                    modules_stamp -= d_modules * m
+                    lanes_stamp -= d_lanes * m
+                    half = d_modules // 2
+                    site_modules[a] += half
+                    site_modules[b] += half
+                    site_stamp[a] -= half * m
+                    site_stamp[b] -= half * m
+                    break
+        if leave is None:
             if measured:
                 class_blocked[k] += 1
                 pair_blocked[p] += 1
-                c[8] += size
+                blocked_gbps += size
             if observer is not None:
                 observer("block", (p, k))
         else:
-            _count_modules(booking.a, booking.b, booking.modules, booking.lanes)
-            if c[1] > c[3]:
-                c[3] = c[1]
-            if c[2] > c[4]:
-                c[4] = c[2]
-            if site_modules[booking.a] > site_peak[booking.a]:
-                site_peak[booking.a] = site_modules[booking.a]
-            if site_modules[booking.b] > site_peak[booking.b]:
-                site_peak[booking.b] = site_modules[booking.b]
-            leave = env.timeout(hold, booking)
-            leave.callbacks.append(depart)
+            if modules > modules_peak:
+                modules_peak = modules
+            if lanes > lanes_peak:
+                lanes_peak = lanes
+            a, b = leave.a, leave.b
+            if site_modules[a] > site_peak[a]:
+                site_peak[a] = site_modules[a]
+            if site_modules[b] > site_peak[b]:
+                site_peak[b] = site_modules[b]
+            schedule(leave, NORMAL, t + hold - env.now)
             if observer is not None:
-                observer("book", booking)
+                observer("book", leave)
         if n + 1 < total:
-            nxt = env.timeout(gap)
-            nxt.callbacks.append(arrive)
-        elif not drain:
-            done.succeed()
-
-    first = env.timeout(streams.next()[0])
-    first.callbacks.append(arrive)
+            t += gap
     if drain:
         env.run()
-    else:
-        env.run(until=done)
+    end_time = max(t, env.now)
 
     measured = max(requests, 1)
     capacity = [state.capacity_units(i) for i in range(ncable)]
+    cable_sum = [busy[h] * m + cable_stamp[h] for h in range(ncable)]
+    site_sum = [site_modules[s] * m + site_stamp[s] for s in range(nsite)]
     return ReplicationRecord(
         architecture=arch.name,
         load_erlang=float(load_erlang),
         replication=replication,
         requests=sum(class_offered),
         blocked=sum(class_blocked),
-        offered_gbps=c[7],
-        blocked_gbps=c[8],
+        offered_gbps=offered_gbps,
+        blocked_gbps=blocked_gbps,
         class_offered=class_offered,
         class_blocked=class_blocked,
         pair_offered=pair_offered,
         pair_blocked=pair_blocked,
-        transceivers_peak=c[3],
-        transceivers_mean=c[5] / measured,
-        lanes_peak=c[4],
-        lanes_mean=c[6] / measured,
+        transceivers_peak=modules_peak,
+        transceivers_mean=(modules * m + modules_stamp) / measured,
+        lanes_peak=lanes_peak,
+        lanes_mean=(lanes * m + lanes_stamp) / measured,
         site_transceivers_peak=list(site_peak),
-        site_transceivers_mean=[x / measured for x in site_acc],
-        cable_utilisation=[a / measured / cap if cap else 0.0 for a, cap in zip(cable_acc, capacity)],
-        sim_time=float(env.now),
+        site_transceivers_mean=[x / measured for x in site_sum],
+        cable_utilisation=[a / measured / cap if cap else 0.0 for a, cap in zip(cable_sum, capacity)],
+        sim_time=float(end_time),
         wall_time_s=time.perf_counter() - started,
-        ended_empty=(state.is_empty() and c[1] == 0 and c[2] == 0 and not any(site_modules)) if drain else None,
+        ended_empty=(state.is_empty() and modules == 0 and lanes == 0 and not any(site_modules)) if drain else None,
     )

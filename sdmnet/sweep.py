@@ -138,9 +138,14 @@ class TaskStore:
         self.folder.mkdir(parents=True, exist_ok=True)
         payload = {"fingerprint": self.fingerprint, "task": asdict(task), "record": record.to_dict()}
         fd, tmp = tempfile.mkstemp(dir=self.folder, prefix=".tmp-", suffix=".json")
-        with os.fdopen(fd, "w") as fh:
-            json.dump(payload, fh)
-        os.replace(tmp, self.path(task))
+        try:
+            with os.fdopen(fd, "w") as fh:
+                json.dump(payload, fh)
+            os.replace(tmp, self.path(task))
+        except BaseException:
+            # A failed or interrupted write leaves neither a partial task file nor its temporary.
+            Path(tmp).unlink(missing_ok=True)
+            raise
 
     def clear(self) -> None:
         """Remove every task file (a fresh, non-resumed run)."""
@@ -189,6 +194,9 @@ _Finished = tuple[Task, ReplicationRecord]
 def _ignore_sigint() -> None:
     # Workers leave Ctrl-C to the parent, which stops the pool and keeps finished tasks.
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    # A forked worker inherits the parent's SIGTERM handler; the pool stops its workers with
+    # SIGTERM, which must end them quietly rather than raise in them.
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
 
 
 def _run_task_args(args: tuple[Scenario, Task, str]) -> tuple[Task, ReplicationRecord]:

@@ -31,27 +31,23 @@ def explain_gap(scenario: Scenario, setup: EngineSetup, estimate: float, low: fl
     alternates = any(len(r) > 1 for r in setup.routes)
     reasons = []
     if estimate > high:
-        if multi_hop:
-            reasons.append(
-                "link independence: the fixed point treats the cables of a route as blocking "
-                "independently, which overestimates on cables in series carrying the same traffic"
-            )
+        direction = "estimate above the interval"
         if alternates:
-            reasons.append("alternate routing: the estimate offers each pair its first route only")
+            reasons.append("alternate routes ignored (the estimate offers each pair its first route only)")
+        if multi_hop:
+            reasons.append("cables assumed to block independently (overestimates on cables in series)")
         if arch.share:
-            reasons.append("grooming: spare capacity of lit units carries later demands in the simulation")
+            reasons.append("grooming ignored (lit units carry later demands in the simulation)")
     else:
+        direction = "estimate below the interval"
         if multi_hop and not setup.whole_fiber:
-            what = "the same channel" if arch.lane_change else "the same channel and core group"
-            reasons.append(
-                f"continuity: the estimate lets a unit take any free position on each cable, the "
-                f"simulation needs {what} end to end"
-            )
+            what = "channel" if arch.lane_change else "channel and core-group"
+            reasons.append(f"{what} continuity ignored (the estimate lets a unit take any free position per cable)")
         if multi_hop and setup.whole_fiber:
-            reasons.append("fiber continuity: a lit fiber must be free on every cable of the route at once")
+            reasons.append("fiber continuity ignored (a fiber must be free on every cable of the route)")
     if not reasons:
         reasons.append("no modelling assumption identified: sampling error or a too short warm-up")
-    return "; ".join(reasons)
+    return f"{direction}: " + "; ".join(reasons)
 
 
 def attach_estimate(

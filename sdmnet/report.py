@@ -522,8 +522,28 @@ def _estimate_section(res: ResultFolder) -> _Section | None:
                 res.path, _Figure("estimate.png", "Estimated blocking against offered load", caption)
             )
         )
+    parts.append(_estimate_gaps_html(summary))
     parts.append(html_table(estimate, caption="Analytic estimate (estimate.csv)"))
     return _Section("estimate", "Estimate", "\n".join(parts))
+
+
+def _estimate_gaps_html(summary: pd.DataFrame | None) -> str:
+    """The load points where the estimate falls outside the simulated interval, and why."""
+    if summary is None or "estimate_gap" not in summary.columns:
+        return ""
+    gaps = summary[summary["estimate_gap"].fillna("").astype(str) != ""]
+    if gaps.empty:
+        return "<p>At every simulated load point the estimate lies inside the simulated 95 % interval.</p>"
+    items = "".join(
+        f"<li><b>{_esc(r.architecture)}</b> at {_esc(f'{r.load_erlang:g}')} Erlang: estimate "
+        f"{_esc(f'{r.estimate_blocking:.3g}')}, simulated {_esc(f'{r.blocking:.3g}')} "
+        f"[{_esc(f'{r.blocking_ci_low:.3g}')}, {_esc(f'{r.blocking_ci_high:.3g}')}]: {_esc(r.estimate_gap)}</li>"
+        for r in gaps.itertuples(index=False)
+    )
+    return (
+        f"<p>The estimate falls outside the simulated interval at {len(gaps)} of {len(summary)} load points; "
+        f"the assumption that breaks there is named (see docs/estimate.md):</p><ul class=\"gaps\">{items}</ul>"
+    )
 
 
 def _paths_section(res: ResultFolder) -> _Section | None:

@@ -1,0 +1,41 @@
+"""The estimate beside the simulation: gaps are flagged, and the broken assumption named."""
+
+from __future__ import annotations
+
+from builders import chain, fiber_type, scenario, single_cable
+
+from sdmnet import api
+from sdmnet.model import Architecture
+
+
+def erlang_b(servers: int, load: float) -> float:
+    # Erlang B recursion (Iversen, Teletraffic Engineering and Network Planning, ch. 4).
+    b = 1.0
+    for n in range(1, servers + 1):
+        b = load * b / (n + load * b)
+    return b
+
+
+def test_cables_in_series_flag_the_fixed_point_overestimate(tmp_path):
+    # One stream over three equal cables in series: the exact blocking is Erlang B of one cable
+    # (the stream sees one resource), which the fixed point overestimates (Kelly, Ann. Appl.
+    # Probab. 1(3), 1991).
+    arch = Architecture("ind", "independent")
+    sc = scenario(chain(fiber_type(cores=1, channels=10), 3), [arch], loads=(6.0,), requests=20_000, replications=6)
+    row = api.simulate(sc, tmp_path, progress=False, figures=False).summary.iloc[0]
+    exact = erlang_b(10, 6.0)
+    assert row.blocking_ci_low <= exact <= row.blocking_ci_high
+    assert row.estimate_blocking > row.blocking_ci_high
+    assert row.estimate_outside_interval
+    assert row.estimate_gap.startswith("estimate above the interval: cables assumed to block independently")
+
+
+def test_one_cable_estimate_sits_inside_the_interval(tmp_path):
+    # Kaufman-Roberts is exact on one cable with no contiguity (Kaufman, IEEE Trans. Commun. 1981).
+    arch = Architecture("ind", "independent")
+    sizes = ((100.0, 0.6), (300.0, 0.4))
+    sc = scenario(single_cable(fiber_type(cores=2, channels=8)), [arch], loads=(5.0,), sizes=sizes,
+                  requests=20_000, replications=6)
+    row = api.simulate(sc, tmp_path, progress=False, figures=False).summary.iloc[0]
+    assert row.blocking_ci_low <= row.estimate_blocking <= row.blocking_ci_high
+    assert not row.estimate_outside_interval and row.estimate_gap == ""

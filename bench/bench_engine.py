@@ -219,6 +219,46 @@ def simpy_floor_loop(channels: int, load: float, seed: int, replication: int, re
     return blocked
 
 
+def same_allocation_loop(channels: int, load: float, seed: int, replication: int, requests: int, warmup: int) -> int:
+    """A bare heapq loop doing the engine's own allocation: the same first-fit state object
+    (:class:`sdmnet.allocation.UnitState`, take / give_back with grants) and the same draws, but
+    no SimPy and no statistics beyond the blocked count."""
+    from sdmnet.allocation import UnitState
+
+    batch = 4096
+    ga, _gp, _gs, gh = (np.random.default_rng(s) for s in replication_seed(seed, replication).spawn(4))
+    rate = load / 1.0
+    state = UnitState([1], [1], [channels], lane_change=True)
+    take, give_back = state.take, state.give_back
+    cables = (0,)
+    heap: list = []
+    push, pop = heapq.heappush, heapq.heappop
+    total = warmup + requests
+    blocked = 0
+    gaps = (ga.standard_exponential(batch) / rate).tolist()
+    holds = (gh.standard_exponential(batch) * 1.0).tolist()
+    _gp.random(batch), _gs.random(batch)
+    t = gaps[0]
+    i = 1
+    seq = 0
+    for n in range(total):
+        if i == batch:
+            gaps = (ga.standard_exponential(batch) / rate).tolist()
+            holds = (gh.standard_exponential(batch) * 1.0).tolist()
+            i = 0
+        while heap and heap[0][0] <= t:
+            give_back(pop(heap)[2])
+        grant = take(cables, 1)
+        if grant is not None:
+            seq += 1
+            push(heap, (t + holds[i], seq, grant))
+        elif n >= warmup:
+            blocked += 1
+        t += gaps[i]
+        i += 1
+    return blocked
+
+
 def erlang_ratio(channels: int = 40, load: float = 30.0, requests: int = 300_000, repeats: int = 3) -> dict:
     """Engine and bare loop on one cable of ``channels`` single-core channels; times and ratio."""
     fiber = FiberType("f1", 1, "weak", 1, channels, 0.2)
@@ -227,8 +267,11 @@ def erlang_ratio(channels: int = 40, load: float = 30.0, requests: int = 300_000
     arch = Architecture("ind", "independent")
     setup = prepare(bench_scenario(topo, arch, load, sizes=((LANE_GBPS, 1.0),), k_paths=1), arch, shortest_routes)
     warmup = requests // 10
-    t_engine, t_bare, t_floor = float("inf"), float("inf"), float("inf")
+    t_engine, t_bare, t_floor, t_same = float("inf"), float("inf"), float("inf"), float("inf")
     for _ in range(repeats):
+        started = time.perf_counter()
+        same_blocked = same_allocation_loop(channels, load, 5, 0, requests, warmup)
+        t_same = min(t_same, time.perf_counter() - started)
         started = time.perf_counter()
         floor_blocked = simpy_floor_loop(channels, load, 5, 0, requests, warmup)
         t_floor = min(t_floor, time.perf_counter() - started)
@@ -244,6 +287,8 @@ def erlang_ratio(channels: int = 40, load: float = 30.0, requests: int = 300_000
         "floor_s": t_floor,
         "ratio": t_engine / t_bare,
         "floor_ratio": t_floor / t_bare,
+        "same_ratio": t_engine / t_same,
+        "same_blocked": same_blocked,
         "floor_blocked": floor_blocked,
         "engine_blocked": rec.blocked,
         "bare_blocked": bare_blocked,
@@ -305,6 +350,8 @@ def main(argv: list[str] | None = None) -> int:
     )
     print(f"  SimPy floor (bare loop with departures on a SimPy queue): {r['floor_ratio']:.2f} x the bare loop "
           f"(blocked {r['floor_blocked']})")
+    print(f"  engine / bare heapq loop doing the engine's allocation (UnitState take/give_back): "
+          f"{r['same_ratio']:.2f} (blocked {r['same_blocked']})")
 
     if not args.skip_memory:
         for traced in (False, True):

@@ -265,29 +265,43 @@ class _Departure(simpy.events.Event):
     _ok = True
     _value = None
 
-    def __init__(
-        self,
-        env: simpy.Environment,
-        callbacks: list,
-        grant: Grant,
-        cables: tuple[int, ...],
-        units: int,
-        modules: int,
-        lanes: int,
-        a: int,
-        b: int,
-        parts: tuple | list,
-    ) -> None:
+    def __init__(self, env: simpy.Environment, callbacks: list, booking: tuple) -> None:
+        # Three stores only: this runs once per accepted demand.
         self.env = env
         self.callbacks = callbacks
-        self.grant = grant
-        self.cables = cables
-        self.units = units
-        self.modules = modules
-        self.lanes = lanes
-        self.a = a
-        self.b = b
-        self.parts = parts
+        self.booking = booking
+
+    @property
+    def grant(self) -> Grant:
+        return self.booking[0]
+
+    @property
+    def cables(self) -> tuple[int, ...]:
+        return self.booking[1]
+
+    @property
+    def units(self) -> int:
+        return self.booking[2]
+
+    @property
+    def modules(self) -> int:
+        return self.booking[3]
+
+    @property
+    def lanes(self) -> int:
+        return self.booking[4]
+
+    @property
+    def a(self) -> int:
+        return self.booking[5]
+
+    @property
+    def b(self) -> int:
+        return self.booking[6]
+
+    @property
+    def parts(self) -> tuple | list:
+        return self.booking[7]
 
 
 class _LitUnit:
@@ -435,12 +449,13 @@ def simulate_replication(
 
     def depart(event: _Departure) -> None:
         nonlocal modules, lanes, modules_stamp, lanes_stamp
-        if event.grant:
-            give_back(event.grant)
-            held = event.units * m
-            for h in event.cables:
+        grant, cables, units, d_modules, d_lanes, a, b, parts = event.booking
+        if grant:
+            give_back(grant)
+            held = units * m
+            for h in cables:
                 cable_stamp[h] += held
-        for unit, amount in event.parts:
+        for unit, amount in parts:
             unit.used -= amount
             unit.spare += amount
             if unit.used <= 1e-9:
@@ -448,9 +463,8 @@ def simulate_replication(
                 for h in unit.cables:
                     cable_stamp[h] += m
                 lit[unit.key].remove(unit)
-                change_modules(event.a, event.b, -unit.modules, -unit.lanes)
+                change_modules(a, b, -unit.modules, -unit.lanes)
         # change_modules(a, b, -modules, -lanes), inlined on the hot path.
-        d_modules, d_lanes, a, b = event.modules, event.lanes, event.a, event.b
         modules -= d_modules
         lanes -= d_lanes
         modules_stamp += d_modules * m
@@ -514,9 +528,9 @@ def simulate_replication(
             plan.append((unit, amount))
         if whole_fiber:
             per_end = max(1, math.ceil(size / lane - 1e-9))
-            return _Departure(env, [depart], [], cables, 0, 2 * per_end, 2 * per_end, a, b, plan)
+            return _Departure(env, [depart], ([], cables, 0, 2 * per_end, 2 * per_end, a, b, plan))
         # Under unit switching the modules belong to the lit units (counted above).
-        return _Departure(env, [depart], [], cables, 0, 0, 0, a, b, plan)
+        return _Departure(env, [depart], ([], cables, 0, 0, 0, a, b, plan))
 
     # Arrivals are a plain loop over the draws; departures are events on SimPy's queue, and the
     # loop lets SimPy process every departure due before each arrival (env.peek / env.step).
@@ -550,7 +564,7 @@ def simulate_replication(
                 if grant is not None:
                     a, b = pair_sites[p]
                     d_modules, d_lanes = route_modules[k], route_lanes_k[k]
-                    leave = _Departure(env, [depart], grant, cables, units[k], d_modules, d_lanes, a, b, no_parts)
+                    leave = _Departure(env, [depart], (grant, cables, units[k], d_modules, d_lanes, a, b, no_parts))
                     held = units[k] * m
                     for h in cables:
                         cable_stamp[h] -= held

@@ -8,20 +8,17 @@ files -> model (:mod:`sdmnet.loaders`) -> engine (:mod:`sdmnet.engine`, run by
 
 from __future__ import annotations
 
-import platform
-import sys
 import time
-from dataclasses import asdict, dataclass
-from importlib import metadata
+from dataclasses import dataclass
 from pathlib import Path
 
 import pandas as pd
 
-from . import __version__
 from .compare import attach_estimate
 from .engine import EngineSetup, ReplicationRecord, prepare
 from .errors import InputError
 from .figures import blocking_figure
+from .manifest import ensure_out_dir, run_manifest, software_versions
 from .model import Scenario
 from .resources import InstalledResources, installed_resources, module_figures
 from .stats import PointSummary, summarize_point
@@ -65,30 +62,6 @@ class SimulationResult:
     cables: pd.DataFrame
     points: list[PointSummary]
     wall_time_s: float
-
-
-def software_versions() -> dict[str, str]:
-    """Versions of Python and of the libraries that shape the results."""
-    out = {"python": platform.python_version(), "sdmnet": __version__}
-    for name in ("numpy", "scipy", "simpy", "networkx", "pandas", "matplotlib"):
-        try:
-            out[name] = metadata.version(name)
-        except metadata.PackageNotFoundError:
-            out[name] = "not installed"
-    return out
-
-
-def ensure_out_dir(out_dir: Path | str) -> Path:
-    """Create ``out_dir`` (and parents) and check it is writable; InputError otherwise."""
-    path = Path(out_dir)
-    try:
-        path.mkdir(parents=True, exist_ok=True)
-        probe = path / ".write-probe"
-        probe.write_text("")
-        probe.unlink()
-    except OSError as exc:
-        raise InputError(path, "--out", f"cannot write the output folder ({exc.strerror or exc})") from None
-    return path
 
 
 def summarize_records(
@@ -179,33 +152,6 @@ def simulate(
     wall = time.perf_counter() - started
     write_json(run_manifest(scenario, "simulate", wall, jobs=jobs, scheduler=scheduler), out / "run.json")
     return SimulationResult(out, summary, classes, pairs, sites, cables, points, wall)
-
-
-def run_manifest(scenario: Scenario, verb: str, wall_time_s: float, **options: object) -> dict:
-    """Inputs, seeds, versions and wall time of a run, for run.json."""
-    unrouted = {}
-    for arch in scenario.architectures:
-        setup = prepare(scenario, arch)
-        if setup.unrouted_pairs:
-            unrouted[arch.name] = ["-".join(p) for p in setup.unrouted_pairs]
-    return {
-        "verb": verb,
-        "scenario_file": str(scenario.source) if scenario.source else None,
-        "topology_file": str(scenario.topology.source) if scenario.topology.source else None,
-        "scenario": asdict(scenario),
-        "fingerprint": scenario_fingerprint(scenario),
-        "seeds": {
-            "scenario_seed": scenario.seed,
-            "rule": "replication r uses numpy SeedSequence(scenario_seed, spawn_key=(r,)), spawned into "
-            "4 streams (interarrival, pair, size, holding); the same for every architecture and load",
-            "replications": scenario.run.replications,
-        },
-        "pairs_without_feasible_route": unrouted,
-        "options": options,
-        "versions": software_versions(),
-        "command": sys.argv,
-        "wall_time_s": round(wall_time_s, 3),
-    }
 
 
 def run_estimate(scenario: Scenario) -> tuple[pd.DataFrame, pd.DataFrame]:

@@ -23,7 +23,6 @@ __all__ = [
     "unit_geometry",
     "cable_geometries",
     "units_needed",
-    "modules_for_demand",
 ]
 
 
@@ -142,15 +141,3 @@ def units_needed(size_gbps: float, geometry: UnitGeometry) -> int:
     """Units a demand of ``size_gbps`` takes on every hop: ceil(s / unit capacity)."""
     # A tiny tolerance keeps 400.0000001 from asking for a second unit through float noise.
     return max(1, math.ceil(size_gbps / geometry.unit_gbps - 1e-9))
-
-
-def modules_for_demand(size_gbps: float, units: int, geometry: UnitGeometry, lane_gbps: float) -> tuple[int, int]:
-    """Transceiver modules and lanes at *one* end of a demand without grooming.
-
-    Unit switching: one g-lane module per unit.  Fiber switching: ceil(s / lane) single-lane
-    modules (MODEL.md section 2).
-    """
-    if geometry.whole_fiber:
-        n = max(1, math.ceil(size_gbps / lane_gbps - 1e-9))
-        return n, n
-    return units, units * geometry.lanes_per_unit

@@ -261,7 +261,7 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
     RunInterrupted
         SIGINT/SIGTERM; finished architectures are on disk.
     """
-    from .api import ensure_out_dir, run_manifest
+    from .manifest import ensure_out_dir, run_manifest
 
     started = time.perf_counter()
     out = ensure_out_dir(out_dir)

@@ -72,7 +72,12 @@ def cmd_check(args: argparse.Namespace) -> int:
     from .describe import describe
     from .loaders import load_any
 
-    print(describe(load_any(Path(args.file))))
+    text = describe(load_any(Path(args.file)))
+    print(text)
+    if args.out:  # only on request: checking a file should not litter results/
+        from .manifest import ensure_out_dir
+
+        (ensure_out_dir(args.out) / "check.txt").write_text(text + "\n")
     return EXIT_OK
 
 
@@ -203,7 +208,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = verbs.add_parser("check", help="validate a topology or scenario and print what it holds")
     p.add_argument("file", metavar="FILE")
-    _add_out(p)
+    p.add_argument("-o", "--out", metavar="DIR", help="also write what it holds to DIR/check.txt")
     p.set_defaults(func=cmd_check)
 
     p = verbs.add_parser("simulate", help="simulate every architecture at every load point")

@@ -41,7 +41,7 @@ class UnitState:
     Notes
     -----
     First fit takes the lowest channel, then the lowest core group, then the lowest fiber
-    (MODEL.md section 3).  For each cable and channel one integer holds the free positions as
+    (docs/model.md, section 3).  For each cable and channel one integer holds the free positions as
     bits in that very order (bit ``group * fibers + fiber``), so the first free position on a
     hop is its lowest set bit: no scan over positions.  Two summaries are kept current so that
     the path search never looks at positions either: ``any_free[cable]``, the channels free at

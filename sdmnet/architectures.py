@@ -1,4 +1,4 @@
-"""What one switching architecture means on one fiber type (MODEL.md section 2).
+"""What one switching architecture means on one fiber type (docs/model.md, section 2).
 
 Each architecture switches a *unit* of g cores x one channel (a spatial superchannel when
 g > 1), or, for ``fiber`` switching, a whole fiber.  This module turns an
@@ -66,7 +66,7 @@ class UnitGeometry:
 def why_not_allowed(arch: Architecture, fiber: FiberType) -> str | None:
     """Why ``arch`` cannot run on ``fiber``, or None when it can.
 
-    Rules of MODEL.md section 2: independent switching needs weak coupling; a fractional-joint
+    Rules of docs/model.md, section 2: independent switching needs weak coupling; a fractional-joint
     group divides the cores and is a multiple of the coupled group.
     """
     if arch.switching == "independent":

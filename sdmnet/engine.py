@@ -330,7 +330,7 @@ def _route_table(setup: EngineSetup) -> list[tuple[tuple[tuple[int, ...], tuple[
     """Per pair, per route in order: ``(cables, units, modules, lanes)``, the last three per size class.
 
     Modules and lanes count both ends of the demand.  Under fiber switching they follow from the
-    size alone: ceil(size / lane) single-lane modules per end (MODEL.md section 2).
+    size alone: ceil(size / lane) single-lane modules per end (docs/model.md, section 2).
     """
     table = []
     for p, routes in enumerate(setup.routes):

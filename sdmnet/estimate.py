@@ -1,6 +1,6 @@
 """Analytic blocking estimate of a scenario, without simulation.
 
-For each architecture the network becomes a loss network of *units* (MODEL.md section 2):
+For each architecture the network becomes a loss network of *units* (docs/model.md, section 2):
 
 * a cable holds ``fiber_pairs x groups_per_fiber x channels`` units (``fiber`` switching: one
   unit per fiber pair), all fully shared (complete sharing, no channel continuity);

@@ -8,7 +8,7 @@ Every problem with a file raises :class:`~sdmnet.errors.InputError` whose text i
 - ``node[A].role`` / ``edge[A,B].length_km``: GraphML nodes and edges, by site id;
 - ``line 4, column 7`` for TOML syntax, ``line 4`` for a CSV row.
 
-Choices this module makes (the file contract is in MODEL.md section 5):
+Choices this module makes (the file contract is in docs/model.md, section 5):
 
 - ``coupled_group`` defaults to 1 for weak coupling (and must be 1 there: weakly coupled
   cores are isolated) and to ``cores`` for random coupling (the whole fiber is one coupled

@@ -304,7 +304,7 @@ class Architecture:
     name : str
         Label in every table.
     switching : {"independent", "fractional-joint", "joint", "fiber"}
-        Switching granularity (MODEL.md section 2).
+        Switching granularity (docs/model.md, section 2).
     group : int or None
         Cores per unit for ``fractional-joint``; ignored otherwise.
     lane_change : bool

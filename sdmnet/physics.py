@@ -6,7 +6,7 @@ what each cable contributes and checks the result against a
 price the MIMO equalizer that randomly coupled fiber needs.  Formulas, defaults and limits of
 the model are written out in ``docs/physics.md``.
 
-Regimes (MODEL.md section 1):
+Regimes (docs/model.md, section 1):
 
 - **random coupling** (cores mixed in groups of ``coupled_group``): group-delay variances of
   cables add, so the RMS spread is ``sqrt(sum coef_i^2 L_i)`` (square-root growth with length,

@@ -1,7 +1,7 @@
 """Installed resources that follow from the topology and the architecture, not from traffic.
 
 Switch ports count line-side ports: every fiber of a cable ending at a site occupies
-``ports_per_fiber`` ports of that site's switch (MODEL.md section 2), counting one duplex port
+``ports_per_fiber`` ports of that site's switch (docs/model.md, section 2), counting one duplex port
 per fiber pair (common practice, no source: a duplex port terminates a fiber pair).
 Fiber-km counts strands: 2 x fiber pairs x length.
 """

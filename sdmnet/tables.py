@@ -32,7 +32,7 @@ __all__ = [
     "write_json",
 ]
 
-# MODEL.md section 5 names the first columns; the rest are ours.
+# docs/model.md, section 5 names the first columns; the rest are ours.
 SUMMARY_COLUMNS = [
     "architecture",
     "switching",

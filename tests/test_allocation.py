@@ -1,7 +1,7 @@
 """First-fit allocation of units and fibers, and exact release.
 
 The first-fit order (lowest channel, then lowest core group, then lowest fiber) is the model's
-rule (MODEL.md section 3); first fit itself is common practice in spectrum assignment, no source.
+rule (docs/model.md, section 3); first fit itself is common practice in spectrum assignment, no source.
 Positions in grants are ``fiber * groups + group`` and bits are ``1 << channel`` (the documented
 grant format of sdmnet.allocation).
 """

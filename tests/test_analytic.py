@@ -103,7 +103,7 @@ WIRELESSU_2PCT = {
     79: 67.729, 81: 69.647, 83: 71.568, 85: 73.490, 87: 75.415, 89: 77.342,
 }  # fmt: skip
 # Rows of the same printed table that disagree with Erlang's formula beyond rounding of the third
-# decimal (printing errors: REFERENCES.md warns that printed tables carry typos).  Checked only
+# decimal (printing errors: printed tables are known to carry typos).  Checked only
 # loosely, so that a gross error in our formula would still show.
 WIRELESSU_2PCT_MISPRINTED = {33: 24.628, 45: 35.507, 55: 44.938, 61: 50.389, 63: 52.461, 69: 58.117}
 

@@ -1,4 +1,4 @@
-"""Units of each switching architecture on each fiber type (MODEL.md section 2)."""
+"""Units of each switching architecture on each fiber type (docs/model.md, section 2)."""
 
 from __future__ import annotations
 

@@ -1,6 +1,6 @@
 """Tests of sdmnet.describe: the summary names everything the fixture files hold.
 
-Expected units are worked out by hand from the switching table of MODEL.md section 2
+Expected units are worked out by hand from the switching table of docs/model.md, section 2
 (unit = g cores x 1 channel, capacity g x lane rate, ports per fiber = cores / g; fiber
 switching moves the whole fiber: cores x channels lanes).
 """

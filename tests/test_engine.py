@@ -50,7 +50,7 @@ ERLANG_POINTS = [(5, 2.0), (10, 5.0), (10, 7.0), (20, 12.0)]
 @pytest.mark.parametrize(("servers", "load"), ERLANG_POINTS)
 def test_single_core_lane_demands_block_as_erlang_b(servers, load):
     # One cable, single-core fiber, every demand one lane, independent switching:
-    # C = fiber_pairs x channels servers (MODEL.md section 3).
+    # C = fiber_pairs x channels servers (docs/model.md, section 3).
     fiber = fiber_type(cores=1, channels=servers)
     arch = Architecture("ind", "independent")
     sc = scenario(single_cable(fiber), [arch], loads=(load,), sizes=((100.0, 1.0),), lane_gbps=100.0)

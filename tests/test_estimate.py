@@ -19,7 +19,7 @@ INDEPENDENT = Architecture("ind", "independent")
 
 
 def test_single_cable_single_core_is_erlang_b():
-    # MODEL.md section 3: one cable, single-core fibers, sizes = lane rate, independent switching
+    # docs/model.md, section 3: one cable, single-core fibers, sizes = lane rate, independent switching
     # -> Erlang B with C = fiber_pairs x channels servers (Erlang B checked against published
     # tables in test_analytic.py).
     loads = (5.0, 15.0, 25.0)
@@ -42,7 +42,7 @@ def test_single_short_cable_with_default_routes_is_erlang_b():
 
 
 def test_mixed_sizes_on_one_cable_are_kaufman_roberts():
-    # MODEL.md section 3: mixed sizes on one cable without contiguity -> Kaufman-Roberts per class.
+    # docs/model.md, section 3: mixed sizes on one cable without contiguity -> Kaufman-Roberts per class.
     # Lane 100 Gb/s on single-core fiber: 100 Gb/s takes 1 unit, 300 Gb/s takes 3.
     sizes = ((100.0, 0.75), (300.0, 0.25))
     sc = scenario(single_cable(fiber_type(cores=1, channels=12), fiber_pairs=1), [INDEPENDENT],
@@ -68,7 +68,7 @@ def test_mixed_sizes_on_one_cable_are_kaufman_roberts():
 def test_unit_count_per_architecture_on_one_cable(arch, servers):
     # 4-core weakly coupled fiber, 8 channels, 2 fiber pairs, lane 100 Gb/s, demands of 100 Gb/s:
     # every architecture's unit carries one demand, so blocking is Erlang B on its unit count
-    # (MODEL.md section 2 table).
+    # (docs/model.md, section 2 table).
     sc = scenario(single_cable(fiber_type(cores=4, channels=8), fiber_pairs=2), [arch], loads=(1.5, 12.0))
     net, _ = estimate(sc, route_finder=shortest_routes)
     assert net["switching"].iloc[0] == arch.switching

@@ -1,8 +1,8 @@
 """Tests of sdmnet.loaders: every bad input gives one exact ``FILE: WHERE: what`` line.
 
 The expected messages below are the specification of what a user sees after ``error: ``.
-The inputs are invented; the rules they break are those of the file contract (MODEL.md
-section 5) and the switching rules (MODEL.md section 2).
+The inputs are invented; the rules they break are those of the file contract (docs/model.md
+section 5) and the switching rules (docs/model.md, section 2).
 """
 
 from __future__ import annotations

@@ -45,7 +45,7 @@ def triangle(fiber_direct: str = "weak7", fiber_via: str = "weak7") -> Scenario:
 
 
 def test_columns_in_contract_order():
-    # MODEL.md section 5: paths.csv columns (architecture, hops and mdl_db added).
+    # docs/model.md, section 5: paths.csv columns (architecture, hops and mdl_db added).
     table = path_table(triangle())
     assert list(table.columns) == list(PATH_COLUMNS)
     assert list(PATH_COLUMNS) == [
@@ -67,7 +67,7 @@ def test_ranks_paths_and_reach_verdict():
 
 
 def test_path_beyond_reach_absent_from_feasible_routes():
-    # MODEL.md section 3: the engine tries only physically feasible paths.
+    # docs/model.md, section 3: the engine tries only physically feasible paths.
     scen = triangle()
     routes = feasible_routes(scen, scen.architectures[0])
     assert list(routes) == [("D1", "D2")]
@@ -89,7 +89,7 @@ def test_path_beyond_power_budget_absent_from_feasible_routes():
 
 
 def test_path_mixing_unit_sizes_is_infeasible():
-    # Joint switching: a unit is all cores of the fiber (MODEL.md section 2), 4 on cc4 and 7 on
+    # Joint switching: a unit is all cores of the fiber (docs/model.md, section 2), 4 on cc4 and 7 on
     # weak7, so a path over both has no single unit size.
     base = triangle(fiber_direct="weak7")
     cables = (base.topology.cables[0], Cable("D1", "H", 40.0, "cc4", 2), Cable("H", "D2", 50.0, "weak7", 2))
@@ -103,7 +103,7 @@ def test_path_mixing_unit_sizes_is_infeasible():
 
 
 def test_independent_switching_on_random_fiber_is_infeasible_with_reason():
-    # MODEL.md section 2: independent switching needs weak coupling.
+    # docs/model.md, section 2: independent switching needs weak coupling.
     scen = triangle(fiber_direct="cc4", fiber_via="cc4")
     table = path_table(scen)
     assert not table["feasible"].any()
@@ -111,7 +111,7 @@ def test_independent_switching_on_random_fiber_is_infeasible_with_reason():
 
 
 def test_random_fiber_joint_path_has_mimo_and_no_crosstalk():
-    # MODEL.md section 1: random coupling needs MIMO; crosstalk is not applicable there
+    # docs/model.md, section 1: random coupling needs MIMO; crosstalk is not applicable there
     # (documented as NaN, an empty cell in paths.csv).
     base = triangle(fiber_direct="cc4", fiber_via="cc4")
     scen = scenario(base.topology.sites, base.topology.cables, base.topology.fiber_types, [Architecture("j", "joint")])

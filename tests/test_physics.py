@@ -104,7 +104,7 @@ def test_mimo_taps_hand_computed():
 
 
 def test_no_mimo_on_weakly_coupled_path_even_for_joint_units():
-    # MODEL.md section 1: only randomly coupled groups need MIMO; weak cores are received alone.
+    # docs/model.md, section 1: only randomly coupled groups need MIMO; weak cores are received alone.
     phys = evaluate_path([hop(50.0, weak_fiber(dgd=1.0))], ROUND, 7)
     assert phys.mimo_taps == 0
     assert phys.mimo_size == 0
@@ -192,7 +192,7 @@ def test_splice_count():
 
 
 def test_beyond_reach_is_infeasible_with_reason():
-    # MODEL.md section 3: length within the transceiver's reach.
+    # docs/model.md, section 3: length within the transceiver's reach.
     t = TransceiverSpec(reach_km=120.0, power_budget_db=1000.0)
     phys = evaluate_path([hop(130.0, weak_fiber())], t, 1)
     assert not phys.feasible
@@ -200,7 +200,7 @@ def test_beyond_reach_is_infeasible_with_reason():
 
 
 def test_beyond_power_budget_is_infeasible_with_reason():
-    # MODEL.md section 3: loss within the power budget.  0.2 * 100 + 1 + 19 * 0.1 = 22.9 dB > 22.
+    # docs/model.md, section 3: loss within the power budget.  0.2 * 100 + 1 + 19 * 0.1 = 22.9 dB > 22.
     t = TransceiverSpec(reach_km=1000.0, power_budget_db=22.0, connector_loss_db=1.0)
     phys = evaluate_path([hop(100.0, weak_fiber())], t, 1)
     assert phys.loss_db == pytest.approx(22.9)

@@ -134,6 +134,17 @@ def engine_rate(setup: EngineSetup, load: float, requests: int, repeats: int = 3
 
 # ---- the bare loop: heapq of departure times, an int bitmask, first fit, the engine's draws ----
 
+_BATCH = 4096
+
+
+def _gap_hold_batches(load: float, seed: int, replication: int):
+    """Batches of (gaps, holding times) from the engine's own streams for the same replication
+    (interarrival and holding streams; on one cable with one size the pair and size draws
+    change nothing), so every loop here meets the very same demands as the engine."""
+    ga, _pairs, _sizes, gh = (np.random.default_rng(s) for s in replication_seed(seed, replication).spawn(4))
+    while True:
+        yield (ga.standard_exponential(_BATCH) / load).tolist(), gh.standard_exponential(_BATCH).tolist()
+
 
 def bare_erlang_loop(channels: int, load: float, seed: int, replication: int, requests: int, warmup: int) -> int:
     """Blocked requests among the measured ones, on one cable of ``channels`` single-lane servers.
@@ -142,24 +153,19 @@ def bare_erlang_loop(channels: int, load: float, seed: int, replication: int, re
     arrival, the first record's gap placing the first arrival), so its count equals the
     engine's on the single-cable Erlang case.
     """
-    batch = 4096
-    ga, _gp, _gs, gh = (np.random.default_rng(s) for s in replication_seed(seed, replication).spawn(4))
-    rate = load / 1.0
+    batches = _gap_hold_batches(load, seed, replication)
     full = (1 << channels) - 1
     free = full
     heap: list[tuple[float, int]] = []
     push, pop = heapq.heappush, heapq.heappop
     total = warmup + requests
     blocked = 0
-    gaps = (ga.standard_exponential(batch) / rate).tolist()
-    holds = (gh.standard_exponential(batch) * 1.0).tolist()
-    _gp.random(batch), _gs.random(batch)  # keep stream positions as the engine's (unused here)
+    gaps, holds = next(batches)
     t = gaps[0]
     i = 1
     for n in range(total):
-        if i == batch:
-            gaps = (ga.standard_exponential(batch) / rate).tolist()
-            holds = (gh.standard_exponential(batch) * 1.0).tolist()
+        if i == _BATCH:
+            gaps, holds = next(batches)
             i = 0
         while heap and heap[0][0] <= t:
             free |= pop(heap)[1]
@@ -180,9 +186,7 @@ def simpy_floor_loop(channels: int, load: float, seed: int, replication: int, re
     import simpy
     from simpy.events import NORMAL
 
-    batch = 4096
-    ga, _gp, _gs, gh = (np.random.default_rng(s) for s in replication_seed(seed, replication).spawn(4))
-    rate = load / 1.0
+    batches = _gap_hold_batches(load, seed, replication)
     env = simpy.Environment()
     peek, step, schedule = env.peek, env.step, env.schedule
     free = [(1 << channels) - 1]
@@ -192,15 +196,12 @@ def simpy_floor_loop(channels: int, load: float, seed: int, replication: int, re
 
     total = warmup + requests
     blocked = 0
-    gaps = (ga.standard_exponential(batch) / rate).tolist()
-    holds = (gh.standard_exponential(batch) * 1.0).tolist()
-    _gp.random(batch), _gs.random(batch)
+    gaps, holds = next(batches)
     t = gaps[0]
     i = 1
     for n in range(total):
-        if i == batch:
-            gaps = (ga.standard_exponential(batch) / rate).tolist()
-            holds = (gh.standard_exponential(batch) * 1.0).tolist()
+        if i == _BATCH:
+            gaps, holds = next(batches)
             i = 0
         while peek() <= t:
             step()
@@ -225,9 +226,7 @@ def same_allocation_loop(channels: int, load: float, seed: int, replication: int
     no SimPy and no statistics beyond the blocked count."""
     from sdmnet.allocation import UnitState
 
-    batch = 4096
-    ga, _gp, _gs, gh = (np.random.default_rng(s) for s in replication_seed(seed, replication).spawn(4))
-    rate = load / 1.0
+    batches = _gap_hold_batches(load, seed, replication)
     state = UnitState([1], [1], [channels], lane_change=True)
     take, give_back = state.take, state.give_back
     cables = (0,)
@@ -235,16 +234,13 @@ def same_allocation_loop(channels: int, load: float, seed: int, replication: int
     push, pop = heapq.heappush, heapq.heappop
     total = warmup + requests
     blocked = 0
-    gaps = (ga.standard_exponential(batch) / rate).tolist()
-    holds = (gh.standard_exponential(batch) * 1.0).tolist()
-    _gp.random(batch), _gs.random(batch)
+    gaps, holds = next(batches)
     t = gaps[0]
     i = 1
     seq = 0
     for n in range(total):
-        if i == batch:
-            gaps = (ga.standard_exponential(batch) / rate).tolist()
-            holds = (gh.standard_exponential(batch) * 1.0).tolist()
+        if i == _BATCH:
+            gaps, holds = next(batches)
             i = 0
         while heap and heap[0][0] <= t:
             give_back(pop(heap)[2])

@@ -13,31 +13,24 @@ import sys
 import time
 from pathlib import Path
 
-from sdmnet.estimate import estimate_architecture, shortest_route_finder
+from sdmnet.architectures import cable_geometries
+from sdmnet.estimate import estimate_architecture
 from sdmnet.loaders import load_scenario
 from sdmnet.model import Architecture, Scenario
+from sdmnet.pathtable import feasible_routes
 
 ROOT = Path(__file__).resolve().parent.parent
 SCENARIO = ROOT / "scenarios" / "nsfnet.toml"
 
 
-def _route_finder():
-    try:
-        from sdmnet.pathtable import feasible_routes
-    except ImportError:
-        return shortest_route_finder, "shortest routes (no path table)"
-    return feasible_routes, "feasible routes (path table)"
-
-
 def _bench(scenario: Scenario, label: str) -> None:
-    finder, how = _route_finder()
     print(f"\n{label}: {len(scenario.topology.cables)} cables, {len(scenario.topology.datacenters)} datacenters, "
-          f"{len(scenario.traffic.loads_erlang)} load points, routes: {how}")  # fmt: skip
+          f"{len(scenario.traffic.loads_erlang)} load points, routes: feasible routes (path table)")  # fmt: skip
     print(f"{'architecture':<22}{'units/cable':>14}{'routes s':>10}{'estimate s':>12}{'iter':>6}  blocking")
     total = 0.0
     for arch in scenario.architectures:
         t0 = time.perf_counter()
-        found = finder(scenario, arch)
+        found = feasible_routes(scenario, arch)
         t1 = time.perf_counter()
         net, _ = estimate_architecture(scenario, arch, lambda _s, _a, found=found: found)
         t2 = time.perf_counter()
@@ -51,14 +44,9 @@ def _bench(scenario: Scenario, label: str) -> None:
 
 
 def _max_units(scenario: Scenario, arch: Architecture) -> int:
-    from sdmnet.architectures import unit_geometry
-
-    topo = scenario.topology_for(arch)
-    best = 0
-    for c in topo.cables:
-        g = unit_geometry(arch, topo.fiber_types[c.fiber_type], scenario.transceiver.lane_gbps)
-        best = max(best, c.fiber_pairs * g.groups_per_fiber * g.channels)
-    return best
+    """Units on the largest cable (fiber pairs x unit positions per fiber)."""
+    cables = scenario.topology_for(arch).cables
+    return max(c.fiber_pairs * g.units_per_fiber for c, g in zip(cables, cable_geometries(scenario, arch)))
 
 
 def _with_fiber_pairs(scenario: Scenario, pairs: int, load_factor: float) -> Scenario:

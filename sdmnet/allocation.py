@@ -170,16 +170,6 @@ class UnitState:
         else:
             self._give_back_same_group(grant)
 
-    def _release_one(self, h: int, pos: int, bit: int) -> None:
-        row = self._slots[h]
-        w = bit.bit_length() - 1
-        own = self._bit_of_pos[h][pos]
-        if row[w] & own:
-            raise AssertionError(f"unit released twice: cable {h} position {pos} bit {bit}")
-        row[w] |= own
-        self.any_free[h] |= bit
-        self.busy_units[h] -= 1
-
     def _give_back_lane_change(self, grant: Grant) -> None:
         slots, bit_of_pos, any_free, busy = self._slots, self._bit_of_pos, self.any_free, self.busy_units
         for h, pos, bit in grant:
@@ -193,8 +183,9 @@ class UnitState:
             busy[h] -= 1
 
     def _give_back_same_group(self, grant: Grant) -> None:
+        # The positions are released as with lane change; only the group summaries differ.
+        self._give_back_lane_change(grant)
         for h, pos, bit in grant:
-            self._release_one(h, pos, bit)
             self.group_free[h][pos % self.groups[h]] |= bit
 
     def is_empty(self) -> bool:

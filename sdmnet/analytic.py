@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -237,6 +237,17 @@ def _blocking_from_log(log_q: np.ndarray, capacities: np.ndarray, sizes: np.ndar
     return out
 
 
+def _single_link(
+    capacity: int, loads: Sequence[float], sizes: Sequence[int]
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Checked capacity (as a one-row array), sizes and log occupancy of one link."""
+    if int(capacity) != capacity or capacity < 0:
+        raise ValueError(f"capacity must be a non-negative integer, got {capacity!r}")
+    a, b = _as_classes(loads, sizes)
+    caps = np.array([int(capacity)])
+    return caps, b, _occupancy_log(caps, b, a[None, :])
+
+
 def kaufman_roberts_occupancy(capacity: int, loads: Sequence[float], sizes: Sequence[int]) -> np.ndarray:
     """Stationary distribution of occupied units on one complete-sharing link.
 
@@ -254,11 +265,7 @@ def kaufman_roberts_occupancy(capacity: int, loads: Sequence[float], sizes: Sequ
     ndarray, shape (capacity + 1,)
         P(j units busy), j = 0..C.
     """
-    if int(capacity) != capacity or capacity < 0:
-        raise ValueError(f"capacity must be a non-negative integer, got {capacity!r}")
-    a, b = _as_classes(loads, sizes)
-    caps = np.array([int(capacity)])
-    log_q = _occupancy_log(caps, b, a[None, :])[:, 0]
+    log_q = _single_link(capacity, loads, sizes)[2][:, 0]
     p = np.exp(log_q - log_q.max())
     return p / p.sum()
 
@@ -290,13 +297,8 @@ def kaufman_roberts(capacity: int, loads: Sequence[float], sizes: Sequence[int])
     J. S. Kaufman, "Blocking in a shared resource environment", IEEE Trans. Commun. 29(10),
     1981; J. W. Roberts, 1981.  With every size 1 this is Erlang B on the total load.
     """
-    if int(capacity) != capacity or capacity < 0:
-        raise ValueError(f"capacity must be a non-negative integer, got {capacity!r}")
-    a, b = _as_classes(loads, sizes)
-    if b.size == 0:
-        return np.zeros(0)
-    caps = np.array([int(capacity)])
-    return _blocking_from_log(_occupancy_log(caps, b, a[None, :]), caps, b)[0]
+    caps, b, log_q = _single_link(capacity, loads, sizes)
+    return _blocking_from_log(log_q, caps, b)[0]
 
 
 def _kaufman_roberts_rows(capacities: np.ndarray, sizes: np.ndarray, loads: np.ndarray) -> np.ndarray:
@@ -432,11 +434,10 @@ def _solve(
     tol: float,
     max_iter: int,
     adaptive: bool,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, int, bool, float]:
+) -> FixedPointResult:
     """Fixed point for P load vectors at once; loads has shape (P, S).
 
-    Returns link blocking (P, L, K), stream blocking (P, S), link loads (P, L, K), iterations,
-    converged, residual.
+    The result's link blocking and link loads have shape (P, L, K), its stream blocking (P, S).
     """
     n_points, n_streams = loads.shape
     n_links, n_sizes = inc.n_links, inc.sizes.size
@@ -476,7 +477,15 @@ def _solve(
     survive = 1.0 - blocking[:, inc.link, inc.size_index]
     grid = np.ones((n_points, n_streams))
     np.multiply.at(grid, (slice(None), inc.stream), survive)
-    return blocking, 1.0 - grid, link_loads, iterations, converged, residual
+    return FixedPointResult(
+        sizes=inc.sizes,
+        link_blocking=blocking,
+        stream_blocking=1.0 - grid,
+        link_loads=link_loads,
+        iterations=iterations,
+        converged=converged,
+        residual=residual,
+    )
 
 
 _Route = tuple[tuple[int, ...], tuple[int, ...]]  # (links, units per link)
@@ -544,14 +553,11 @@ def reduced_load_fixed_point(
     batch = reduced_load_fixed_point_batch(
         capacities, streams, loads[None, :], damping=damping, tol=tol, max_iter=max_iter, adaptive=adaptive
     )
-    return FixedPointResult(
-        sizes=batch.sizes,
+    return replace(
+        batch,
         link_blocking=batch.link_blocking[0],
         stream_blocking=batch.stream_blocking[0],
         link_loads=batch.link_loads[0],
-        iterations=batch.iterations,
-        converged=batch.converged,
-        residual=batch.residual,
     )
 
 
@@ -601,16 +607,4 @@ def reduced_load_fixed_point_batch(
         raise ValueError(f"loads must have shape (points, {len(routes)}), got {load_matrix.shape}")
     if np.any(~np.isfinite(load_matrix)) or np.any(load_matrix < 0):
         raise ValueError("stream loads must be finite and non-negative")
-    inc = _incidence(caps.size, routes)
-    link_b, stream_b, link_loads, iterations, converged, residual = _solve(
-        caps, inc, load_matrix, damping, tol, max_iter, adaptive
-    )
-    return FixedPointResult(
-        sizes=inc.sizes,
-        link_blocking=link_b,
-        stream_blocking=stream_b,
-        link_loads=link_loads,
-        iterations=iterations,
-        converged=converged,
-        residual=residual,
-    )
+    return _solve(caps, _incidence(caps.size, routes), load_matrix, damping, tol, max_iter, adaptive)

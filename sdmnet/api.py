@@ -15,8 +15,9 @@ from pathlib import Path
 import pandas as pd
 
 from .compare import attach_estimate
-from .engine import EngineSetup, ReplicationRecord, prepare
+from .engine import ReplicationRecord, prepare
 from .errors import InputError
+from .estimate import estimate as estimate_scenario
 from .figures import blocking_figure
 from .manifest import ensure_out_dir, run_manifest, software_versions
 from .model import Scenario
@@ -43,7 +44,6 @@ __all__ = [
     "forecast",
     "report",
     "demo",
-    "run_estimate",
     "summarize_records",
     "software_versions",
     "ensure_out_dir",
@@ -66,16 +66,15 @@ class SimulationResult:
 
 def summarize_records(
     scenario: Scenario, records: dict[str, ReplicationRecord]
-) -> tuple[list[PointSummary], dict[str, EngineSetup], dict[str, InstalledResources]]:
-    """Aggregate records by (architecture, load) in scenario order, with setups and resources."""
-    setups = {a.name: prepare(scenario, a) for a in scenario.architectures}
+) -> tuple[list[PointSummary], dict[str, InstalledResources]]:
+    """Aggregate records by (architecture, load) in scenario order, with installed resources."""
     resources = {a.name: installed_resources(scenario, a) for a in scenario.architectures}
     grouped: dict[tuple[int, int], list[ReplicationRecord]] = {}
     for task in plan_tasks(scenario):
         if task.key in records:
             grouped.setdefault((task.arch_index, task.load_index), []).append(records[task.key])
     points = [summarize_point(grouped[k], scenario.run.confidence) for k in sorted(grouped)]
-    return points, setups, resources
+    return points, resources
 
 
 def simulate(
@@ -128,11 +127,11 @@ def simulate(
     store = TaskStore(out / "tasks", scenario_fingerprint(scenario))
     bar = Progress(len(tasks), "simulate") if progress else None
     records = run_sweep(scenario, store, tasks=tasks, jobs=jobs, scheduler=scheduler, resume=resume, progress=bar)
-    points, setups, resources = summarize_records(scenario, records)
+    points, resources = summarize_records(scenario, records)
     summary = summary_table(scenario, points, setups, resources)
     summary = add_module_columns(summary, {a.name: module_figures(scenario, a) for a in scenario.architectures})
-    estimate_net, _ = run_estimate(scenario)
-    summary = attach_estimate(summary, estimate_net, scenario, setups)
+    estimate_net, _ = estimate_scenario(scenario)
+    summary = attach_estimate(summary, estimate_net, setups)
     classes = class_table(points, setups)
     pairs = pair_table(points, setups)
     sites = site_table(scenario, points, setups, resources)
@@ -150,15 +149,9 @@ def simulate(
         blocking_figure(summary, out / "bandwidth_blocking.png", column="bandwidth_blocking",
                         title="Bandwidth blocking vs offered load (95 % intervals)")
     wall = time.perf_counter() - started
-    write_json(run_manifest(scenario, "simulate", wall, jobs=jobs, scheduler=scheduler), out / "run.json")
+    manifest = run_manifest(scenario, "simulate", wall, setups=setups, jobs=jobs, scheduler=scheduler)
+    write_json(manifest, out / "run.json")
     return SimulationResult(out, summary, classes, pairs, sites, cables, points, wall)
-
-
-def run_estimate(scenario: Scenario) -> tuple[pd.DataFrame, pd.DataFrame]:
-    """The analytic estimate (network and per-pair tables), computed in memory."""
-    from .estimate import estimate as _estimate
-
-    return _estimate(scenario)
 
 
 def estimate(scenario: Scenario, out_dir: Path | str) -> tuple[pd.DataFrame, pd.DataFrame]:
@@ -168,7 +161,7 @@ def estimate(scenario: Scenario, out_dir: Path | str) -> tuple[pd.DataFrame, pd.
     """
     started = time.perf_counter()
     out = ensure_out_dir(out_dir)
-    network, pairs = run_estimate(scenario)
+    network, pairs = estimate_scenario(scenario)
     write_table(network, out / "estimate.csv")
     write_table(pairs, out / "estimate_pairs.csv")
     write_json(run_manifest(scenario, "estimate", time.perf_counter() - started), out / "run.json")
@@ -188,25 +181,19 @@ def paths(scenario: Scenario, out_dir: Path | str) -> pd.DataFrame:
 
 
 def plan(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True, cable_cuts: bool = False):
-    """Fewest fiber pairs per cable meeting the target blocking: writes ``plan.csv`` and more."""
+    """Fewest fiber pairs per cable meeting the target blocking: writes ``plan.csv``, its
+    totals, and run.json (:func:`sdmnet.planning.run_plan`)."""
     from .planning import run_plan
 
-    started = time.perf_counter()
-    out = ensure_out_dir(out_dir)
-    result = run_plan(scenario, out, jobs=jobs, progress=progress, cable_cuts=cable_cuts)
-    write_json(run_manifest(scenario, "plan", time.perf_counter() - started, jobs=jobs), out / "run.json")
-    return result
+    return run_plan(scenario, out_dir, jobs=jobs, progress=progress, cable_cuts=cable_cuts)
 
 
 def forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True):
-    """The plan year by year under growth: writes ``forecast.csv`` and figures."""
+    """The plan year by year under growth: writes ``forecast.csv``, figures and run.json
+    (:func:`sdmnet.forecasting.run_forecast`)."""
     from .forecasting import run_forecast
 
-    started = time.perf_counter()
-    out = ensure_out_dir(out_dir)
-    result = run_forecast(scenario, out, jobs=jobs, progress=progress)
-    write_json(run_manifest(scenario, "forecast", time.perf_counter() - started, jobs=jobs), out / "run.json")
-    return result
+    return run_forecast(scenario, out_dir, jobs=jobs, progress=progress)
 
 
 def report(folder: Path | str, out_dir: Path | str | None = None) -> Path:

@@ -22,10 +22,7 @@ DEMO_SCENARIO = REPO_ROOT / "scenarios" / "demo.toml"
 
 
 def _positive_int(text: str) -> int:
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"not a whole number: {text!r}") from None
+    value = _int(text)
     if value < 1:
         raise argparse.ArgumentTypeError(f"must be at least 1, got {value}")
     return value
@@ -137,23 +134,15 @@ def cmd_paths(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-def cmd_plan(args: argparse.Namespace) -> int:
+def cmd_plan_or_forecast(args: argparse.Namespace) -> int:
     from . import api
 
     scenario = _load_scenario(args)
-    out = _out(args, "plan")
-    api.plan(scenario, out, jobs=args.jobs, progress=not args.quiet, cable_cuts=args.cuts)
-    api.report(out)
-    print(f"results in {out}/ (report.html)")
-    return EXIT_OK
-
-
-def cmd_forecast(args: argparse.Namespace) -> int:
-    from . import api
-
-    scenario = _load_scenario(args)
-    out = _out(args, "forecast")
-    api.forecast(scenario, out, jobs=args.jobs, progress=not args.quiet)
+    out = _out(args, args.verb)
+    if args.verb == "plan":
+        api.plan(scenario, out, jobs=args.jobs, progress=not args.quiet, cable_cuts=args.cuts)
+    else:
+        api.forecast(scenario, out, jobs=args.jobs, progress=not args.quiet)
     api.report(out)
     print(f"results in {out}/ (report.html)")
     return EXIT_OK
@@ -234,13 +223,13 @@ def build_parser() -> argparse.ArgumentParser:
     _add_out(p)
     _add_run_options(p)
     p.add_argument("--cuts", action="store_true", help="also simulate every single cable cut on the plan")
-    p.set_defaults(func=cmd_plan)
+    p.set_defaults(func=cmd_plan_or_forecast)
 
     p = verbs.add_parser("forecast", help="the plan year by year under demand growth")
     p.add_argument("scenario", metavar="SCENARIO")
     _add_out(p)
     _add_run_options(p)
-    p.set_defaults(func=cmd_forecast)
+    p.set_defaults(func=cmd_plan_or_forecast)
 
     p = verbs.add_parser("report", help="(re)write report.html and figures for a results folder")
     p.add_argument("folder", metavar="DIR")

@@ -14,12 +14,11 @@ import math
 import pandas as pd
 
 from .engine import EngineSetup
-from .model import Scenario
 
 __all__ = ["attach_estimate", "explain_gap"]
 
 
-def explain_gap(scenario: Scenario, setup: EngineSetup, estimate: float, low: float, high: float) -> str:
+def explain_gap(setup: EngineSetup, estimate: float, low: float, high: float) -> str:
     """Why the estimate may lie above or below the simulated interval ``[low, high]``.
 
     Returns an empty string when the estimate lies inside the interval (or no interval exists).
@@ -51,7 +50,7 @@ def explain_gap(scenario: Scenario, setup: EngineSetup, estimate: float, low: fl
 
 
 def attach_estimate(
-    summary: pd.DataFrame, estimate: pd.DataFrame, scenario: Scenario, setups: dict[str, EngineSetup]
+    summary: pd.DataFrame, estimate: pd.DataFrame, setups: dict[str, EngineSetup]
 ) -> pd.DataFrame:
     """``summary`` with ``estimate_blocking``, ``estimate_bandwidth_blocking``,
     ``estimate_outside_interval`` and ``estimate_gap`` columns (matched on architecture and load)."""
@@ -65,9 +64,8 @@ def attach_estimate(
             bw = float(est.loc[key, "bandwidth_blocking"])
         else:
             b = bw = math.nan
-        note = "" if math.isnan(b) else explain_gap(
-            scenario, setups[row.architecture], b, row.blocking_ci_low, row.blocking_ci_high
-        )
+        setup = setups[row.architecture]
+        note = "" if math.isnan(b) else explain_gap(setup, b, row.blocking_ci_low, row.blocking_ci_high)
         blocking.append(b)
         bandwidth.append(bw)
         outside.append(bool(note))

@@ -242,23 +242,16 @@ class _Departure(simpy.events.Event):
     """The end of one accepted demand: a SimPy event, already triggered, scheduled at the
     demand's departure time; its callback releases exactly what the demand holds.
 
-    It is its own booking (no separate value object), built without :class:`simpy.Timeout`'s
-    checks, since the holding time is a non-negative draw.
+    Built without :class:`simpy.Timeout`'s checks, since the holding time is a non-negative draw.
 
     Attributes
     ----------
-    grant : Grant
-        Units taken for the demand alone (empty when it rides on shared units).
-    cables : tuple of int
-        The route's cables (for the time-average bookkeeping of ``grant``).
-    units : int
-        Units of ``grant`` on each of ``cables``.
-    modules, lanes : int
-        Transceiver modules and lanes the demand holds (both ends together).
-    a, b : int
-        Site indices of its ends.
-    parts : tuple or list of (_LitUnit, float)
-        Shared units it rides on and the capacity it uses in each.
+    booking : tuple
+        ``(grant, cables, units, modules, lanes, a, b, parts)``: the units taken for the demand
+        alone (empty when it rides on shared units), the route's cables, units of ``grant`` on
+        each cable, transceiver modules and lanes the demand holds (both ends together), the
+        site indices of its ends, and the shared units it rides on with the capacity it uses
+        in each.
     """
 
     # Triggered successfully from birth, with no value (class attributes: one less store each).
@@ -266,42 +259,15 @@ class _Departure(simpy.events.Event):
     _value = None
 
     def __init__(self, env: simpy.Environment, callbacks: list, booking: tuple) -> None:
-        # Three stores only: this runs once per accepted demand.
+        # Three stores only (the booking stays one tuple): this runs once per accepted demand.
         self.env = env
         self.callbacks = callbacks
         self.booking = booking
 
     @property
     def grant(self) -> Grant:
+        """Units taken for the demand alone (what observers check)."""
         return self.booking[0]
-
-    @property
-    def cables(self) -> tuple[int, ...]:
-        return self.booking[1]
-
-    @property
-    def units(self) -> int:
-        return self.booking[2]
-
-    @property
-    def modules(self) -> int:
-        return self.booking[3]
-
-    @property
-    def lanes(self) -> int:
-        return self.booking[4]
-
-    @property
-    def a(self) -> int:
-        return self.booking[5]
-
-    @property
-    def b(self) -> int:
-        return self.booking[6]
-
-    @property
-    def parts(self) -> tuple | list:
-        return self.booking[7]
 
 
 class _LitUnit:
@@ -413,7 +379,6 @@ def simulate_replication(
     busy = state.busy_units
     share = arch.share
     whole_fiber = setup.whole_fiber
-    lane = setup.lane_gbps
     sizes = setup.sizes_gbps
     route_table = _route_table(setup)
     route_gbps, route_lanes = setup.route_unit_gbps, setup.route_lanes_per_unit
@@ -448,7 +413,6 @@ def simulate_replication(
         site_stamp[b] -= half * m
 
     def depart(event: _Departure) -> None:
-        nonlocal modules, lanes, modules_stamp, lanes_stamp
         grant, cables, units, d_modules, d_lanes, a, b, parts = event.booking
         if grant:
             give_back(grant)
@@ -464,21 +428,12 @@ def simulate_replication(
                     cable_stamp[h] += m
                 lit[unit.key].remove(unit)
                 change_modules(a, b, -unit.modules, -unit.lanes)
-        # change_modules(a, b, -modules, -lanes), inlined on the hot path.
-        modules -= d_modules
-        lanes -= d_lanes
-        modules_stamp += d_modules * m
-        lanes_stamp += d_lanes * m
-        half = d_modules // 2
-        site_modules[a] -= half
-        site_modules[b] -= half
-        site_stamp[a] += half * m
-        site_stamp[b] += half * m
+        change_modules(a, b, -d_modules, -d_lanes)
         if observer is not None:
             observer("release", event)
 
-    def book_shared(p: int, size: float) -> _Departure | None:
-        for r, (cables, _units, _modules, _lanes) in enumerate(route_table[p]):
+    def book_shared(p: int, k: int, size: float) -> tuple | None:
+        for r, (cables, _units, route_modules, _lanes) in enumerate(route_table[p]):
             # Spare capacity of units already lit on this route first, then new units.
             units = lit.setdefault((p, r), [])
             plan, need = [], size
@@ -501,12 +456,12 @@ def simulate_replication(
                     break
                 grants.append(g)
             else:
-                return light_units(p, r, cables, size, plan, need, grants)
+                return light_units(p, r, cables, route_modules[k], plan, need, grants)
         return None
 
     def light_units(
-        p: int, r: int, cables: tuple[int, ...], size: float, plan: list, need: float, grants: list
-    ) -> _Departure:
+        p: int, r: int, cables: tuple[int, ...], fiber_modules: int, plan: list, need: float, grants: list
+    ) -> tuple:
         for unit, amount in plan:
             unit.spare -= amount
             unit.used += amount
@@ -526,11 +481,10 @@ def simulate_replication(
             need -= amount
             units.append(unit)
             plan.append((unit, amount))
-        if whole_fiber:
-            per_end = max(1, math.ceil(size / lane - 1e-9))
-            return _Departure(env, [depart], ([], cables, 0, 2 * per_end, 2 * per_end, a, b, plan))
+        if whole_fiber:  # single-lane modules per demand, whatever fiber carries it
+            return ([], cables, 0, fiber_modules, fiber_modules, a, b, plan)
         # Under unit switching the modules belong to the lit units (counted above).
-        return _Departure(env, [depart], ([], cables, 0, 0, 0, a, b, plan))
+        return ([], cables, 0, 0, 0, a, b, plan)
 
     # Arrivals are a plain loop over the draws; departures are events on SimPy's queue, and the
     # loop lets SimPy process every departure due before each arrival (env.peek / env.step).
@@ -553,33 +507,17 @@ def simulate_replication(
             class_offered[k] += 1
             pair_offered[p] += 1
             offered_gbps += size
-        leave: _Departure | None = None
+        booking = None
         if share:
-            leave = book_shared(p, size)
-            if leave is not None:
-                change_modules(leave.a, leave.b, leave.modules, leave.lanes)
+            booking = book_shared(p, k, size)
         else:
             for cables, units, route_modules, route_lanes_k in route_table[p]:
                 grant = take(cables, units[k])
                 if grant is not None:
                     a, b = pair_sites[p]
-                    d_modules, d_lanes = route_modules[k], route_lanes_k[k]
-                    leave = _Departure(env, [depart], (grant, cables, units[k], d_modules, d_lanes, a, b, no_parts))
-                    held = units[k] * m
-                    for h in cables:
-                        cable_stamp[h] -= held
-                    # change_modules(), inlined on the hot path.
-                    modules += d_modules
-                    lanes += d_lanes
-                    modules_stamp -= d_modules * m
-                    lanes_stamp -= d_lanes * m
-                    half = d_modules // 2
-                    site_modules[a] += half
-                    site_modules[b] += half
-                    site_stamp[a] -= half * m
-                    site_stamp[b] -= half * m
+                    booking = (grant, cables, units[k], route_modules[k], route_lanes_k[k], a, b, no_parts)
                     break
-        if leave is None:
+        if booking is None:
             if measured:
                 class_blocked[k] += 1
                 pair_blocked[p] += 1
@@ -587,15 +525,21 @@ def simulate_replication(
             if observer is not None:
                 observer("block", (p, k))
         else:
+            grant, cables, units_k, d_modules, d_lanes, a, b, _parts = booking
+            if grant:
+                held = units_k * m
+                for h in cables:
+                    cable_stamp[h] -= held
+            change_modules(a, b, d_modules, d_lanes)
             if modules > modules_peak:
                 modules_peak = modules
             if lanes > lanes_peak:
                 lanes_peak = lanes
-            a, b = leave.a, leave.b
             if site_modules[a] > site_peak[a]:
                 site_peak[a] = site_modules[a]
             if site_modules[b] > site_peak[b]:
                 site_peak[b] = site_modules[b]
+            leave = _Departure(env, [depart], booking)
             schedule(leave, NORMAL, t + hold - env.now)
             if observer is not None:
                 observer("book", leave)

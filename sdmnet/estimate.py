@@ -25,14 +25,14 @@ import pandas as pd
 from .analytic import Stream, reduced_load_fixed_point_batch
 from .architectures import cable_geometries, units_needed
 from .model import Architecture, Scenario
-from .routing import Route, datacenter_pairs, k_shortest_routes
+from .pathtable import feasible_routes
+from .routing import Route, datacenter_pairs
 from .traffic import pair_weights, size_classes
 
 __all__ = [
     "NETWORK_COLUMNS",
     "PAIR_COLUMNS",
     "RouteFinder",
-    "shortest_route_finder",
     "estimate",
     "estimate_architecture",
 ]
@@ -54,21 +54,6 @@ RouteFinder = Callable[[Scenario, Architecture], dict[tuple[str, str], list[Rout
 _DAMPING = 0.5
 _TOL = 1e-10
 _MAX_ITER = 10_000
-
-
-def shortest_route_finder(scenario: Scenario, arch: Architecture) -> dict[tuple[str, str], list[Route]]:
-    """Routes without physics: the ``k_paths`` shortest routes of every datacenter pair."""
-    topo = scenario.topology_for(arch)
-    return {p: k_shortest_routes(topo, *p, scenario.run.k_paths) for p in datacenter_pairs(topo)}
-
-
-def _default_route_finder() -> RouteFinder:
-    """The physical layer's feasible routes when available, else shortest routes."""
-    try:
-        from .pathtable import feasible_routes
-    except ImportError:  # the physical path table is optional for the estimate
-        return shortest_route_finder
-    return feasible_routes
 
 
 @dataclass(frozen=True)
@@ -95,9 +80,7 @@ def _first_route(found: dict[tuple[str, str], list[Route]], a: str, b: str) -> R
 def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) -> _Model:
     topo = scenario.topology_for(arch)
     geos = cable_geometries(scenario, arch)
-    capacities = np.array(
-        [c.fiber_pairs * g.groups_per_fiber * g.channels for c, g in zip(topo.cables, geos)], dtype=np.int64
-    )
+    capacities = np.array([c.fiber_pairs * g.units_per_fiber for c, g in zip(topo.cables, geos)], dtype=np.int64)
     weights = pair_weights(topo, scenario.traffic)
     pairs = [p for p in datacenter_pairs(topo) if weights.get(p, 0.0) > 0]
     sizes, probs = size_classes(scenario.traffic)
@@ -146,8 +129,7 @@ def estimate_architecture(
         The architecture to estimate.
     route_finder : callable, optional
         ``(scenario, arch) -> {pair: [Route, ...]}``; the first route of each pair is used.
-        Default: :func:`sdmnet.pathtable.feasible_routes` (physically feasible routes), or
-        :func:`shortest_route_finder` if the path table is not available.
+        Default: :func:`sdmnet.pathtable.feasible_routes` (physically feasible routes).
 
     Returns
     -------
@@ -160,7 +142,7 @@ def estimate_architecture(
     ConfigurationError
         If the architecture cannot run on a cable's fiber type.
     """
-    model = _build(scenario, arch, route_finder or _default_route_finder())
+    model = _build(scenario, arch, route_finder or feasible_routes)
     loads = np.array(scenario.traffic.loads_erlang, dtype=float)
     n_points, n_pairs = loads.size, len(model.pairs)
     # Offered load and blocked load per pair, in requests and in Gb/s, for every load point.

@@ -178,12 +178,15 @@ def _dodge_step(loads: pd.Series, series: int) -> float:
 
 
 def _draw_blocking(
-    ax: plt.Axes, frame: pd.DataFrame, column: str, floor: float, order: list[str], dodge: bool = True
+    ax: plt.Axes, frame: pd.DataFrame, column: str, floor: float, order: list[str], lines: bool = True
 ) -> tuple[bool, bool]:
-    """Points, intervals and lines of ``column`` per architecture; returns (any zero, any dodge)."""
+    """Points, intervals and (with ``lines``) lines of ``column`` per architecture.
+
+    Returns (any zero, any dodge).
+    """
     low_col, high_col = f"{column}_ci_low", f"{column}_ci_high"
     has_ci = low_col in frame.columns and high_col in frame.columns
-    step = _dodge_step(frame["load_erlang"], len(order)) if dodge else 0.0
+    step = _dodge_step(frame["load_erlang"], len(order))
     any_zero = False
     for i, name in enumerate(order):
         part = frame[frame["architecture"].astype(str) == name].sort_values("load_erlang", kind="stable")
@@ -200,9 +203,10 @@ def _draw_blocking(
             ax.errorbar(
                 x, y, yerr=err, fmt="none", ecolor=style["color"], elinewidth=1.1, capsize=3, zorder=2
             )
-        ax.plot(
-            x, y, color=style["color"], linestyle=style["linestyle"], linewidth=style["linewidth"], zorder=3
-        )
+        if lines:
+            ax.plot(
+                x, y, color=style["color"], linestyle=style["linestyle"], linewidth=style["linewidth"], zorder=3
+            )
         zero = value <= 0
         any_zero = any_zero or bool(zero.any())
         marker = {
@@ -224,12 +228,15 @@ def _draw_blocking(
     return any_zero, step > 0
 
 
-def _blocking_label(column: str) -> str:
-    return (
-        "request blocking probability (share of requests)"
-        if column == "blocking"
-        else ("bandwidth blocking ratio (share of Gb/s)")
+def _blocking_axes(ax: plt.Axes, column: str) -> str:
+    """Log blocking axis against offered load, labelled for ``column``; returns the title's noun."""
+    request = column == "blocking"
+    ax.set_yscale("log")
+    ax.set_xlabel("offered load (Erlang)")
+    ax.set_ylabel(
+        "request blocking probability (share of requests)" if request else "bandwidth blocking ratio (share of Gb/s)"
     )
+    return "Request blocking" if request else "Bandwidth blocking"
 
 
 @_with_look
@@ -261,11 +268,8 @@ def blocking_figure(
     ]
     floor = _log_floor(values)
     any_zero, dodged = _draw_blocking(ax, summary, column, floor, order)
-    ax.set_yscale("log")
-    ax.set_xlabel("offered load (Erlang)")
-    ax.set_ylabel(_blocking_label(column))
-    default = "Request blocking" if column == "blocking" else "Bandwidth blocking"
-    ax.set_title(title or f"{default} vs offered load (95 % intervals)")
+    quantity = _blocking_axes(ax, column)
+    ax.set_title(title or f"{quantity} vs offered load (95 % intervals)")
     _apply_look(ax)
     ax.legend(title="architecture", loc="upper left", bbox_to_anchor=(1.01, 1.0))
     notes = ["Bars: confidence interval over replications."]
@@ -615,11 +619,9 @@ def estimate_figure(estimate: pd.DataFrame, summary: pd.DataFrame | None, path: 
         floor = _log_floor(values)
         floors.append(floor)
         if summary is not None:
-            zero, dodged = _draw_blocking(ax, summary, column, floor, order)
+            # the simulation as markers and intervals only: the lines are the estimate's
+            zero, dodged = _draw_blocking(ax, summary, column, floor, order, lines=False)
             any_zero, any_dodge = any_zero or zero, any_dodge or dodged
-            for line in list(ax.get_lines()):  # simulation keeps markers and intervals only
-                if line.get_marker() in (None, "None", "none", ""):
-                    line.set_visible(False)
         for i, name in enumerate(order):
             part = estimate[estimate["architecture"].astype(str) == name].sort_values(
                 "load_erlang", kind="stable"
@@ -633,10 +635,7 @@ def estimate_figure(estimate: pd.DataFrame, summary: pd.DataFrame | None, path: 
                 linewidth=1.4,
                 zorder=3,
             )
-        ax.set_yscale("log")
-        ax.set_xlabel("offered load (Erlang)")
-        ax.set_ylabel(_blocking_label(column))
-        ax.set_title("Request blocking" if column == "blocking" else "Bandwidth blocking")
+        ax.set_title(_blocking_axes(ax, column))
         _apply_look(ax)
     handles = [Line2D([], [], label=name, **style_for(i)) for i, name in enumerate(order)]
     handles += [

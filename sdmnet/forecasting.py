@@ -14,30 +14,24 @@ cable); ``forecast_totals.csv`` holds them once per year and architecture.
 from __future__ import annotations
 
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, replace
 from pathlib import Path
 
-import matplotlib
+import pandas as pd
 
-matplotlib.use("Agg")  # figures go to files only
-
-import matplotlib.pyplot as plt  # noqa: E402
-import pandas as pd  # noqa: E402
-
-from .architectures import cable_geometries  # noqa: E402
-from .figures import save_figure, style_for  # noqa: E402
-from .model import ForecastSpec, Scenario  # noqa: E402
-from .planning import (  # noqa: E402
+from .figures import forecast_figure
+from .model import ForecastSpec, Scenario
+from .planning import (
     DEFAULT_MAX_CANDIDATES,
     ArchitecturePlan,
     candidate_rows,
-    dimensioning_load,
+    finish_run,
     plan_architecture,
-    plan_spec,
-    stderr_log,
+    start_run,
     totals_row,
 )
-from .tables import write_json, write_table  # noqa: E402
+from .tables import write_table
 
 __all__ = [
     "FORECAST_COLUMNS",
@@ -114,7 +108,7 @@ def forecast_architecture(
     *,
     jobs: int = 1,
     max_candidates: int = DEFAULT_MAX_CANDIDATES,
-    log=None,
+    log: Callable[[str], None] | None = None,
 ) -> list[YearPlan]:
     """Plans of one architecture for years 0..F, each year's fibers a floor for the next.
 
@@ -142,8 +136,7 @@ def forecast_architecture(
         sc = year_scenario(scenario, factor)
         floor = plan.pairs_by_cable
         plan = plan_architecture(
-            sc, arch, load_erlang=dimensioning_load(sc), start=floor, lower=floor, jobs=jobs,
-            max_candidates=max_candidates, log=log,
+            sc, arch, start=floor, lower=floor, jobs=jobs, max_candidates=max_candidates, log=log
         )
         years.append(YearPlan(year, factor, plan, tuple(floor[k] for k in plan.cables)))
     return years
@@ -206,29 +199,15 @@ def forecast_notes(years: list[YearPlan]) -> str:
 
 
 def forecast_figures(totals: pd.DataFrame, out_dir: Path) -> list[Path]:
-    """Fiber pairs, peak transceivers and switch ports per architecture over the years (PNG)."""
+    """Fiber pairs, peak transceivers and switch ports per architecture over the years (PNG each)."""
     panels = [
-        ("fiber_pairs", "fiber pairs (all cables)", "Fiber pairs per year", "forecast_fiber_pairs.png"),
-        ("transceivers_peak", "transceiver modules (peak, network)", "Peak transceivers per year",
-         "forecast_transceivers.png"),
-        ("switch_ports", "switch ports (line side, network)", "Switch ports per year", "forecast_switch_ports.png"),
+        ("fiber_pairs", "forecast_fiber_pairs.png"),
+        ("transceivers_peak", "forecast_transceivers.png"),
+        ("switch_ports", "forecast_switch_ports.png"),
     ]
-    paths = []
-    for column, ylabel, title, name in panels:
-        fig, ax = plt.subplots(figsize=(7.0, 4.5))
-        for i, (arch, part) in enumerate(totals.groupby("architecture", sort=False)):
-            part = part.sort_values("year")
-            ax.plot(part["year"], part[column], label=str(arch), **style_for(i))
-        ax.set_xlabel("year (0 = plan)")
-        ax.set_ylabel(ylabel)
-        ax.set_title(title)
-        ax.xaxis.get_major_locator().set_params(integer=True)
-        ax.grid(True, color="#d0d0d0", linewidth=0.6)
-        for side in ("top", "right"):
-            ax.spines[side].set_visible(False)
-        ax.legend(title="architecture", fontsize=8, frameon=False)
-        paths.append(save_figure(fig, Path(out_dir) / name))
-    return paths
+    return [
+        forecast_figure(totals[["year", "architecture", column]], Path(out_dir) / name) for column, name in panels
+    ]
 
 
 def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True) -> ForecastResult:
@@ -261,13 +240,8 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
     RunInterrupted
         SIGINT/SIGTERM; finished architectures are on disk.
     """
-    from .manifest import ensure_out_dir, run_manifest
-
     started = time.perf_counter()
-    out = ensure_out_dir(out_dir)
-    for arch in scenario.architectures:
-        cable_geometries(scenario, arch)
-    log = stderr_log("forecast") if progress else None
+    out, log = start_run(scenario, out_dir, "forecast", progress)
     spec = forecast_spec(scenario)
     all_years: list[YearPlan] = []
     rows, totals, cands = [], [], []
@@ -276,8 +250,8 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
         all_years += years
         rows += forecast_rows(years)
         for yp in years:
-            sc = year_scenario(scenario, yp.load_factor)
-            totals.append({"year": yp.year, "load_factor": yp.load_factor, **totals_row(sc, yp.plan)})
+            # totals_row reads only the topology and [plan] of the scenario, the same every year.
+            totals.append({"year": yp.year, "load_factor": yp.load_factor, **totals_row(scenario, yp.plan)})
             cands += candidate_rows(yp.plan, year=yp.year)
         write_table(pd.DataFrame(rows, columns=FORECAST_COLUMNS), out / "forecast.csv")
         write_table(pd.DataFrame(totals), out / "forecast_totals.csv")
@@ -286,17 +260,11 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
     totals_frame = pd.DataFrame(totals)
     figures = forecast_figures(totals_frame, out) if len(totals_frame) else []
     notes = forecast_notes(all_years)
-    wall = time.perf_counter() - started
-    write_json(
-        run_manifest(
-            scenario, "forecast", wall, jobs=jobs, years=spec.years,
-            factors=[spec.factor(y) for y in range(spec.years + 1)],
-            forecast_section="scenario" if scenario.forecast is not None else "defaults",
-            plan_section="scenario" if scenario.plan is not None else "defaults",
-            target_blocking=plan_spec(scenario).target_blocking,
-            max_candidates_per_year=DEFAULT_MAX_CANDIDATES,
-        ),
-        out / "run.json",
+    wall = finish_run(
+        scenario, out, "forecast", started, jobs=jobs, years=spec.years,
+        factors=[spec.factor(y) for y in range(spec.years + 1)],
+        forecast_section="scenario" if scenario.forecast is not None else "defaults",
+        max_candidates_per_year=DEFAULT_MAX_CANDIDATES,
     )
     return ForecastResult(
         out, all_years, pd.DataFrame(rows, columns=FORECAST_COLUMNS), totals_frame, pd.DataFrame(cands),

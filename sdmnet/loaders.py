@@ -65,6 +65,7 @@ from .model import (
     TrafficSpec,
     TransceiverSpec,
 )
+from .routing import datacenter_pairs
 
 try:  # Python 3.11+
     import tomllib
@@ -128,13 +129,19 @@ def _at(where: str, key: str) -> str:
     return key if where in ("", TOP) else f"{where}.{key}"
 
 
+def _did_you_mean(word: str, known: Iterable[str]) -> str:
+    """`` (did you mean 'x'?)`` for the nearest known word, or ``""`` if none is near."""
+    close = difflib.get_close_matches(word, list(known), n=1)
+    return f" (did you mean '{close[0]}'?)" if close else ""
+
+
 def _suggest(word: str, known: Iterable[str]) -> str:
-    """`` (did you mean 'x'?)`` for the nearest known word, or ``(known: ...)`` if none is near."""
+    """:func:`_did_you_mean`, or `` (known: ...)`` if no known word is near."""
     known = list(known)
-    close = difflib.get_close_matches(word, known, n=1)
-    if close:
-        return f" (did you mean '{close[0]}'?)"
-    return f" (known: {', '.join(known)})" if known else ""
+    hint = _did_you_mean(word, known)
+    if hint or not known:
+        return hint
+    return f" (known: {', '.join(known)})"
 
 
 def _shorten(text: str, limit: int = 40) -> str:
@@ -247,9 +254,7 @@ def _as_choice(doc: _Doc, where: str, value: Any, choices: tuple[str, ...]) -> s
     text = _as_str(doc, where, value)
     if text not in choices:
         options = ", ".join(f"'{c}'" for c in choices)
-        close = difflib.get_close_matches(text, choices, n=1)
-        hint = f" (did you mean '{close[0]}'?)" if close else ""
-        doc.fail(where, f"must be one of {options}, got '{text}'{hint}")
+        doc.fail(where, f"must be one of {options}, got '{text}'{_did_you_mean(text, choices)}")
     return text
 
 
@@ -365,8 +370,12 @@ LIMITS: dict[tuple[type, str], Limit] = {
 }
 
 
-def _hints(cls: type) -> dict[str, Any]:
-    return get_type_hints(cls)
+def _within(doc: _Doc, where: str, value: Any, limit: Limit | None) -> Any:
+    """``value`` once it passes ``limit`` (no limit: any value passes)."""
+    problem = limit(value) if limit else None
+    if problem:
+        doc.fail(where, problem)
+    return value
 
 
 def _read_fields(
@@ -390,17 +399,13 @@ def _read_fields(
     optional = set(optional)
     specs = [f for f in fields(cls) if f.name not in exclude]
     _check_keys(doc, where, table, [f.name for f in specs] + list(also_known))
-    hints = _hints(cls)
+    hints = get_type_hints(cls)
     values: dict[str, Any] = {}
     for spec in specs:
         key_where = _at(where, spec.name)
         if spec.name in table:
             value = _convert(doc, key_where, table[spec.name], hints[spec.name])
-            limit = LIMITS.get((cls, spec.name))
-            problem = limit(value) if limit else None
-            if problem:
-                doc.fail(key_where, problem)
-            values[spec.name] = value
+            values[spec.name] = _within(doc, key_where, value, LIMITS.get((cls, spec.name)))
         elif spec.default is MISSING and spec.default_factory is MISSING and spec.name not in optional:
             doc.fail(where, f"missing required key '{spec.name}'")
     return values
@@ -421,8 +426,6 @@ def _read_bytes(path: Path, owner: _Doc | None = None, key: str = "file") -> byt
         return path.read_bytes()
     except FileNotFoundError:
         doc.fail(key, f"file not found{named}")
-    except IsADirectoryError:
-        doc.fail(key, f"is a directory, not a file{named}")
     except OSError as err:
         doc.fail(key, f"cannot read the file{named}: {err.strerror or err}")
     except ValueError:  # a NUL character in the name
@@ -570,10 +573,9 @@ def _check_datacenters_connected(doc: _Doc, topology: Topology) -> None:
     component = {}
     for number, nodes in enumerate(nx.connected_components(topology.graph())):
         component.update(dict.fromkeys(nodes, number))
-    for i, a in enumerate(datacenters):
-        for b in datacenters[i + 1 :]:
-            if component[a.id] != component[b.id]:
-                doc.fail("cables", f"no path between datacenters '{a.id}' and '{b.id}'")
+    for a, b in datacenter_pairs(topology):
+        if component[a] != component[b]:
+            doc.fail("cables", f"no path between datacenters '{a}' and '{b}'")
 
 
 def _raw_topology_from_toml(doc: _Doc, data: Mapping[str, Any]) -> _RawTopology:
@@ -668,17 +670,8 @@ def _raw_topology_from_graphml(doc: _Doc, data: bytes) -> _RawTopology:
     edges.sort(key=lambda edge: edge[0])
 
     cables = []
-    first: dict[frozenset[str], str] = {}
     for _, source, target, attrs in edges:
         where = f"edge[{source},{target}]"
-        pair = frozenset((source, target))
-        if pair in first:
-            doc.fail(
-                where,
-                f"second cable between '{source}' and '{target}' (first is {first[pair]}); "
-                "give one cable more fiber_pairs instead",
-            )
-        first[pair] = where
         table = {k: v for k, v in {**edge_default, **attrs}.items() if k != "id"}
         for end, role in (("a", "source"), ("b", "target")):
             if end in table:
@@ -707,7 +700,11 @@ def load_topology(path: str | Path) -> Topology:
         For anything wrong in the file, as ``FILE: WHERE: what``.
     """
     path = Path(path)
-    data = _read_bytes(path)
+    return _topology_from_bytes(path, _read_bytes(path))
+
+
+def _topology_from_bytes(path: Path, data: bytes) -> Topology:
+    """The topology in ``data``, the bytes of ``path`` (whose suffix tells GraphML from TOML)."""
     if path.suffix.lower() in GRAPHML_SUFFIXES:
         doc = _Doc(str(path), strings_convert=True)
         return _build_topology(doc, _raw_topology_from_graphml(doc, data), path)
@@ -726,17 +723,11 @@ def _topology_from_toml_data(data: Mapping[str, Any], path: Path) -> Topology:
 TOPOLOGY_SUFFIXES = (".toml", *GRAPHML_SUFFIXES)
 
 
-def _suffix_problem(path: Path, suffixes: tuple[str, ...]) -> str | None:
-    if path.suffix.lower() in suffixes:
-        return None
-    shown = f"'{path.suffix}'" if path.suffix else "(none)"
-    return f"unknown file type {shown}: expected {' or '.join(suffixes)}"
-
-
-def _require_suffix(path: Path, suffixes: tuple[str, ...]) -> None:
-    problem = _suffix_problem(path, suffixes)
-    if problem:
-        _Doc(str(path)).fail("file", problem)
+def _require_suffix(path: Path, suffixes: tuple[str, ...], owner: _Doc | None = None, key: str = "file") -> None:
+    """Refuse a ``path`` without one of ``suffixes``; blamed on ``owner``'s ``key`` when given."""
+    if path.suffix.lower() not in suffixes:
+        shown = f"'{path.suffix}'" if path.suffix else "(none)"
+        (owner or _Doc(str(path))).fail(key, f"unknown file type {shown}: expected {' or '.join(suffixes)}")
 
 
 # ----------------------------------------------------------------------------------------------
@@ -749,28 +740,22 @@ def _traffic(doc: _Doc, table: Mapping[str, Any], scenario_file: Path, topology:
     for key in ("pattern", "load_erlang"):
         if key not in table:
             doc.fail(where, f"missing required key '{key}'")
-    hints = _hints(TrafficSpec)
-    pattern = _convert(doc, "traffic.pattern", table["pattern"], hints["pattern"])
+    pattern = _convert(doc, "traffic.pattern", table["pattern"], get_type_hints(TrafficSpec)["pattern"])
 
     raw_loads = table["load_erlang"]
     if isinstance(raw_loads, list):
         if not raw_loads:
             doc.fail("traffic.load_erlang", "empty list: give at least one load")
-        loads = tuple(_as_float(doc, f"traffic.load_erlang[{i}]", v) for i, v in enumerate(raw_loads))
-        wheres = [f"traffic.load_erlang[{i}]" for i in range(len(loads))]
+        given = [(f"traffic.load_erlang[{i}]", v) for i, v in enumerate(raw_loads)]
     else:
-        loads = (_as_float(doc, "traffic.load_erlang", raw_loads),)
-        wheres = ["traffic.load_erlang"]
-    for load_where, load in zip(wheres, loads):
-        if load <= 0:
-            doc.fail(load_where, f"must be > 0, got {_number(load)}")
+        given = [("traffic.load_erlang", raw_loads)]
+    positive = _greater(0)
+    loads = tuple(_within(doc, w, _as_float(doc, w, v), positive) for w, v in given)
 
     values: dict[str, Any] = {"pattern": pattern, "loads_erlang": loads}
     if "mean_holding" in table:
         holding = _as_float(doc, "traffic.mean_holding", table["mean_holding"])
-        if holding <= 0:
-            doc.fail("traffic.mean_holding", f"must be > 0, got {_number(holding)}")
-        values["mean_holding"] = holding
+        values["mean_holding"] = _within(doc, "traffic.mean_holding", holding, positive)
     if "sizes_gbps" in table:
         values["sizes_gbps"] = _sizes(doc, table["sizes_gbps"])
 
@@ -826,6 +811,7 @@ def _read_matrix(path: Path, data: bytes, topology: Topology) -> tuple[tuple[str
     doc = _Doc(str(path))
     text = _decode(doc, data)
     reader = csv.reader(io.StringIO(text, newline=""))
+    roles = {s.id: s.role for s in topology.sites}
     rows: list[tuple[str, str, float]] = []
     first_line: dict[frozenset[str], int] = {}
     header_seen = False
@@ -840,7 +826,7 @@ def _read_matrix(path: Path, data: bytes, topology: Topology) -> tuple[tuple[str
                     doc.fail(f"line {line}", f"header must be 'a,b,weight', got '{','.join(cells)}'")
                 header_seen = True
                 continue
-            rows.append(_matrix_row(doc, f"line {line}", cells, topology, first_line, line))
+            rows.append(_matrix_row(doc, line, cells, roles, first_line))
     except csv.Error as err:
         doc.fail(f"line {reader.line_num}", f"invalid CSV: {err}")
     if not header_seen:
@@ -853,17 +839,18 @@ def _read_matrix(path: Path, data: bytes, topology: Topology) -> tuple[tuple[str
 
 
 def _matrix_row(
-    doc: _Doc, where: str, cells: list[str], topology: Topology, first_line: dict[frozenset[str], int], line: int
+    doc: _Doc, line: int, cells: list[str], roles: Mapping[str, str], first_line: dict[frozenset[str], int]
 ) -> tuple[str, str, float]:
+    """Row ``a,b,weight`` on ``line``; ``roles`` maps site ids to roles, ``first_line`` pairs to lines."""
+    where = f"line {line}"
     if len(cells) != 3:
         doc.fail(where, f"expected 3 fields (a,b,weight), got {len(cells)}")
     a, b, weight_text = cells
-    site_ids = [s.id for s in topology.sites]
     for site_id in (a, b):
-        if site_id not in site_ids:
-            doc.fail(where, f"unknown site '{site_id}'{_suggest(site_id, site_ids)}")
-        if topology.site(site_id).role != "datacenter":
-            doc.fail(where, f"site '{site_id}' is a {topology.site(site_id).role}, not a datacenter")
+        if site_id not in roles:
+            doc.fail(where, f"unknown site '{site_id}'{_suggest(site_id, roles)}")
+        if roles[site_id] != "datacenter":
+            doc.fail(where, f"site '{site_id}' is a {roles[site_id]}, not a datacenter")
     if a == b:
         doc.fail(where, f"a and b are the same site '{a}'")
     try:
@@ -938,16 +925,13 @@ def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
         if key not in data:
             doc.fail(TOP, f"missing required key '{key}'")
     name = _as_str(doc, "name", data["name"]) if "name" in data else path.stem
-    seed = _as_int(doc, "seed", data["seed"]) if "seed" in data else 1
-    if seed < 0:
-        doc.fail("seed", f"must be >= 0, got {seed}")
+    seed = _within(doc, "seed", _as_int(doc, "seed", data["seed"]), _at_least(0)) if "seed" in data else 1
 
     topology_path = _resolve(doc, "topology", path, _as_str(doc, "topology", data["topology"]))
-    _read_bytes(topology_path, doc, "topology")  # a missing file is the scenario's fault
-    problem = _suffix_problem(topology_path, TOPOLOGY_SUFFIXES)
-    if problem:
-        doc.fail("topology", problem)
-    topology = load_topology(topology_path)
+    # A missing file or a wrong file type is the scenario's fault; what is inside, the topology's.
+    topology_bytes = _read_bytes(topology_path, doc, "topology")
+    _require_suffix(topology_path, TOPOLOGY_SUFFIXES, doc, "topology")
+    topology = _topology_from_bytes(topology_path, topology_bytes)
 
     traffic = _traffic(doc, _table(doc, "traffic", data["traffic"]), path, topology)
     transceiver = _section(doc, data, "transceiver", TransceiverSpec)
@@ -1078,7 +1062,7 @@ def load_any(path: str | Path) -> Topology | Scenario:
     path = Path(path)
     raw = _read_bytes(path)
     if path.suffix.lower() in GRAPHML_SUFFIXES:
-        return load_topology(path)
+        return _topology_from_bytes(path, raw)
     _require_suffix(path, TOPOLOGY_SUFFIXES)
     data = _parse_toml(path, raw)
     if "topology" in data:

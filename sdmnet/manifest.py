@@ -4,12 +4,13 @@ from __future__ import annotations
 
 import platform
 import sys
+from collections.abc import Mapping
 from dataclasses import asdict
 from importlib import metadata
 from pathlib import Path
 
 from . import __version__
-from .engine import prepare
+from .engine import EngineSetup, prepare
 from .errors import InputError
 from .model import Scenario
 from .sweep import scenario_fingerprint
@@ -41,11 +42,18 @@ def ensure_out_dir(out_dir: Path | str) -> Path:
     return path
 
 
-def run_manifest(scenario: Scenario, verb: str, wall_time_s: float, **options: object) -> dict:
+def run_manifest(
+    scenario: Scenario,
+    verb: str,
+    wall_time_s: float,
+    *,
+    setups: Mapping[str, EngineSetup] | None = None,
+    **options: object,
+) -> dict:
     """Inputs, seeds, versions and wall time of a run, for run.json."""
     unrouted = {}
     for arch in scenario.architectures:
-        setup = prepare(scenario, arch)
+        setup = setups[arch.name] if setups is not None else prepare(scenario, arch)
         if setup.unrouted_pairs:
             unrouted[arch.name] = ["-".join(p) for p in setup.unrouted_pairs]
     return {

@@ -10,6 +10,8 @@ the architecture, is infeasible with that reason.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterator
+from dataclasses import replace
 
 import pandas as pd
 
@@ -18,7 +20,7 @@ from .model import Architecture, Scenario, Topology, TransceiverSpec
 from .physics import PathPhysics, evaluate_path, mimo_group
 from .routing import Route, datacenter_pairs, k_shortest_routes
 
-__all__ = ["PATH_COLUMNS", "evaluate_route", "path_table", "feasible_routes"]
+__all__ = ["PATH_COLUMNS", "evaluate_route", "evaluated_routes", "path_table", "feasible_routes"]
 
 PATH_COLUMNS: tuple[str, ...] = (
     "architecture",
@@ -69,17 +71,17 @@ def evaluate_route(topology: Topology, route: Route, arch: Architecture, transce
     # A stand-in unit as wide as the mixed cores, so no unit-width verdict is added to the reason.
     phys = evaluate_path(hops, transceiver, mimo_group([f for _, f in hops]))
     others = [phys.reason] if phys.reason else []
-    return PathPhysics(
-        length_km=phys.length_km,
-        loss_db=phys.loss_db,
-        gd_spread_ps=phys.gd_spread_ps,
-        mimo_taps=phys.mimo_taps,
-        crosstalk_db=phys.crosstalk_db,
-        mdl_db=phys.mdl_db,
-        feasible=False,
-        reason="; ".join([why, *others]),
-        mimo_size=phys.mimo_size,
-    )
+    return replace(phys, feasible=False, reason="; ".join([why, *others]))
+
+
+def evaluated_routes(
+    scenario: Scenario, arch: Architecture
+) -> Iterator[tuple[str, str, list[tuple[Route, PathPhysics]]]]:
+    """Per datacenter pair of ``arch``'s topology, its k shortest routes with their physics."""
+    topology = scenario.topology_for(arch)
+    for a, b in datacenter_pairs(topology):
+        routes = k_shortest_routes(topology, a, b, scenario.run.k_paths)
+        yield a, b, [(r, evaluate_route(topology, r, arch, scenario.transceiver)) for r in routes]
 
 
 def _row(arch: Architecture, a: str, b: str, rank: int, route: Route, phys: PathPhysics) -> dict:
@@ -109,12 +111,9 @@ def path_table(scenario: Scenario) -> pd.DataFrame:
     ``crosstalk_db`` is NaN (an empty cell in CSV) on paths without weakly coupled cables.
     """
     rows = []
-    k = scenario.run.k_paths
     for arch in scenario.architectures:
-        topology = scenario.topology_for(arch)
-        for a, b in datacenter_pairs(topology):
-            routes = k_shortest_routes(topology, a, b, k)
-            if not routes:
+        for a, b, evaluated in evaluated_routes(scenario, arch):
+            if not evaluated:
                 rows.append(
                     {
                         **dict.fromkeys(PATH_COLUMNS, math.nan),
@@ -130,8 +129,7 @@ def path_table(scenario: Scenario) -> pd.DataFrame:
                     }
                 )
                 continue
-            for rank, route in enumerate(routes, start=1):
-                phys = evaluate_route(topology, route, arch, scenario.transceiver)
+            for rank, (route, phys) in enumerate(evaluated, start=1):
                 rows.append(_row(arch, a, b, rank, route, phys))
     return pd.DataFrame(rows, columns=list(PATH_COLUMNS))
 
@@ -139,9 +137,4 @@ def path_table(scenario: Scenario) -> pd.DataFrame:
 def feasible_routes(scenario: Scenario, arch: Architecture) -> dict[tuple[str, str], list[Route]]:
     """Per datacenter pair (in :func:`~sdmnet.routing.datacenter_pairs` order), the feasible
     routes among the k shortest, in rank order; an empty list when none is feasible."""
-    topology = scenario.topology_for(arch)
-    out: dict[tuple[str, str], list[Route]] = {}
-    for a, b in datacenter_pairs(topology):
-        routes = k_shortest_routes(topology, a, b, scenario.run.k_paths)
-        out[(a, b)] = [r for r in routes if evaluate_route(topology, r, arch, scenario.transceiver).feasible]
-    return out
+    return {(a, b): [r for r, phys in found if phys.feasible] for a, b, found in evaluated_routes(scenario, arch)}

@@ -43,14 +43,15 @@ import pandas as pd
 from scipy import special
 
 from .analytic import erlang_b_servers, kaufman_roberts
-from .architectures import cable_geometries, units_needed
+from .architectures import UnitGeometry, cable_geometries, units_needed
 from .engine import EngineSetup, prepare
+from .manifest import ensure_out_dir, run_manifest
 from .model import Architecture, PlanSpec, Scenario, Topology
 from .resources import InstalledResources, installed_resources
 from .stats import PointSummary, summarize_point
 from .sweep import plan_tasks, run_sweep
 from .tables import write_json, write_table
-from .traffic import pair_weights, size_classes
+from .traffic import pair_loads, pair_weights, size_classes
 
 __all__ = [
     "DEFAULT_MAX_CANDIDATES",
@@ -71,6 +72,8 @@ __all__ = [
     "site_rows",
     "candidate_rows",
     "stderr_log",
+    "start_run",
+    "finish_run",
     "run_plan",
 ]
 
@@ -96,6 +99,39 @@ def plan_spec(scenario: Scenario) -> PlanSpec:
     return scenario.plan if scenario.plan is not None else PlanSpec()
 
 
+def _first_route_demands(
+    scenario: Scenario,
+    arch: Architecture,
+    load_erlang: float,
+    setup: EngineSetup,
+    demand_units: Callable[[float, UnitGeometry], int],
+) -> tuple[list[dict[int, float]], list[int], list[int]]:
+    """Per cable, what each pair's first route brings to it.
+
+    Returns ``offered`` (per cable: ``{demand_units(size, cable geometry): offered Erlang}``),
+    ``hops`` (of the longest first route crossing the cable, 0 if none does) and ``crossing``
+    (how many pairs' first routes cross it).
+    """
+    topo = scenario.topology_for(arch)
+    geos = cable_geometries(scenario, arch)
+    loads = pair_loads(topo, scenario.traffic, load_erlang)
+    sizes, probs = size_classes(scenario.traffic)
+    offered: list[dict[int, float]] = [{} for _ in topo.cables]
+    hops = [0] * len(topo.cables)
+    crossing = [0] * len(topo.cables)
+    for pair, routes in zip(setup.pairs, setup.routes):
+        if not routes:
+            continue
+        route = routes[0]
+        for c in route:
+            hops[c] = max(hops[c], len(route))
+            crossing[c] += 1
+            for size, prob in zip(sizes, probs):
+                units = demand_units(float(size), geos[c])
+                offered[c][units] = offered[c].get(units, 0.0) + loads[pair] * float(prob)
+    return offered, hops, crossing
+
+
 def cable_offered_units(
     scenario: Scenario, arch: Architecture, load_erlang: float, setup: EngineSetup
 ) -> tuple[list[dict[int, float]], list[int]]:
@@ -117,21 +153,7 @@ def cable_offered_units(
     hops : list of int
         Per cable: hops of the longest first route crossing it (0 if none does).
     """
-    topo = scenario.topology_for(arch)
-    geos = cable_geometries(scenario, arch)
-    weights = pair_weights(topo, scenario.traffic)
-    sizes, probs = size_classes(scenario.traffic)
-    offered: list[dict[int, float]] = [{} for _ in topo.cables]
-    hops = [0] * len(topo.cables)
-    for pair, routes in zip(setup.pairs, setup.routes):
-        if not routes:
-            continue
-        route = routes[0]
-        for c in route:
-            hops[c] = max(hops[c], len(route))
-            for size, prob in zip(sizes, probs):
-                units = units_needed(float(size), geos[c])
-                offered[c][units] = offered[c].get(units, 0.0) + load_erlang * weights[pair] * float(prob)
+    offered, hops, _crossing = _first_route_demands(scenario, arch, load_erlang, setup, units_needed)
     return offered, hops
 
 
@@ -166,25 +188,12 @@ def _groomed_pairs(
     together, then each pair routed over it is given half a unit more (its last unit is, on
     average, half full; units are never shared between pairs).
     """
-    topo = scenario.topology_for(arch)
-    geos = cable_geometries(scenario, arch)
     lane = scenario.transceiver.lane_gbps
-    weights = pair_weights(topo, scenario.traffic)
-    sizes, probs = size_classes(scenario.traffic)
-    slots: list[dict[int, float]] = [{} for _ in topo.cables]
-    pairs_over = [0] * len(topo.cables)
-    hops = [0] * len(topo.cables)
-    for pair, routes in zip(setup.pairs, setup.routes):
-        if not routes:
-            continue
-        for c in routes[0]:
-            pairs_over[c] += 1
-            hops[c] = max(hops[c], len(routes[0]))
-            for size, prob in zip(sizes, probs):
-                b = max(1, math.ceil(float(size) / lane - 1e-9))
-                slots[c][b] = slots[c].get(b, 0.0) + load * weights[pair] * float(prob)
+    slots, hops, pairs_over = _first_route_demands(
+        scenario, arch, load, setup, lambda size, _geo: max(1, math.ceil(size / lane - 1e-9))
+    )
     out = []
-    for i, geo in enumerate(geos):
+    for i, geo in enumerate(cable_geometries(scenario, arch)):
         lanes_per_pair = geo.units_per_fiber * geo.lanes_per_unit
         groomed = _pairs_for_link_target(slots[i], lanes_per_pair, target / max(hops[i], 1), upper)
         # Pairs worth of lanes, then half a unit per pair over the cable, in fiber pairs.
@@ -849,6 +858,35 @@ def stderr_log(prefix: str, stream: TextIO | None = None) -> Callable[[str], Non
     return _log
 
 
+def start_run(
+    scenario: Scenario, out_dir: Path | str, verb: str, progress: bool
+) -> tuple[Path, Callable[[str], None] | None]:
+    """The start shared by ``plan`` and ``forecast``: the output folder and the progress log.
+
+    Every architecture is checked against every cable first, so an impossible one is refused
+    (ConfigurationError) before any simulation; an unwritable folder raises InputError.
+    """
+    out = ensure_out_dir(out_dir)
+    for arch in scenario.architectures:
+        cable_geometries(scenario, arch)
+    return out, (stderr_log(verb) if progress else None)
+
+
+def finish_run(scenario: Scenario, out: Path, verb: str, started: float, **options: object) -> float:
+    """Write ``run.json`` of a ``plan`` or ``forecast`` run (with the plan settings used).
+
+    Returns the wall time since ``started`` (a :func:`time.perf_counter` reading).
+    """
+    wall = time.perf_counter() - started
+    manifest = run_manifest(
+        scenario, verb, wall, **options,
+        target_blocking=plan_spec(scenario).target_blocking,
+        plan_section="scenario" if scenario.plan is not None else "defaults",
+    )
+    write_json(manifest, out / "run.json")
+    return wall
+
+
 def run_plan(
     scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True, cable_cuts: bool = False
 ) -> PlanResult:
@@ -882,13 +920,8 @@ def run_plan(
     RunInterrupted
         SIGINT/SIGTERM; finished architectures are on disk.
     """
-    from .manifest import ensure_out_dir, run_manifest
-
     started = time.perf_counter()
-    out = ensure_out_dir(out_dir)
-    for arch in scenario.architectures:  # refuse an impossible architecture before any work
-        cable_geometries(scenario, arch)
-    log = stderr_log("plan") if progress else None
+    out, log = start_run(scenario, out_dir, "plan", progress)
     plans: list[ArchitecturePlan] = []
     plan_part, totals_part, site_part, cand_part, cut_parts = [], [], [], [], []
     cuts: pd.DataFrame | None = None
@@ -907,17 +940,10 @@ def run_plan(
             cut_parts.append(cable_cut_table(scenario, ap, jobs=jobs, log=log))
             cuts = pd.concat(cut_parts, ignore_index=True)
             write_table(cuts, out / "cuts.csv")
-    wall = time.perf_counter() - started
-    spec = plan_spec(scenario)
-    write_json(
-        run_manifest(
-            scenario, "plan", wall, jobs=jobs, cable_cuts=cable_cuts,
-            dimensioning_load_erlang=dimensioning_load(scenario),
-            target_blocking=spec.target_blocking, per_pair=spec.per_pair,
-            plan_section="scenario" if scenario.plan is not None else "defaults",
-            max_candidates=DEFAULT_MAX_CANDIDATES,
-        ),
-        out / "run.json",
+    wall = finish_run(
+        scenario, out, "plan", started, jobs=jobs, cable_cuts=cable_cuts,
+        dimensioning_load_erlang=dimensioning_load(scenario), per_pair=plan_spec(scenario).per_pair,
+        max_candidates=DEFAULT_MAX_CANDIDATES,
     )
     return PlanResult(
         out, plans, pd.DataFrame(plan_part), pd.DataFrame(totals_part), pd.DataFrame(site_part),

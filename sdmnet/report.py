@@ -13,10 +13,9 @@ import base64
 import html
 import json
 import math
-import os
 import struct
 from collections.abc import Callable, Iterable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 from pathlib import Path
 from typing import Any
 
@@ -24,6 +23,8 @@ import pandas as pd
 
 from . import figures
 from .errors import InputError
+from .model import Scenario
+from .tables import SUMMARY_COLUMNS, write_text
 
 __all__ = [
     "RESULT_TABLES",
@@ -67,23 +68,8 @@ CAUTIONS = (
 # Longer tables are cut in the page (the CSV beside it is complete).
 MAX_ROWS = 1000
 
-SUMMARY_SHOWN = [
-    "architecture",
-    "switching",
-    "load_erlang",
-    "requests",
-    "blocked",
-    "blocking",
-    "blocking_ci_low",
-    "blocking_ci_high",
-    "bandwidth_blocking",
-    "transceivers_peak",
-    "transceivers_mean",
-    "transceiver_lanes_peak",
-    "switch_ports",
-    "fiber_pairs",
-    "fiber_km",
-]
+# summary.csv's contract columns (docs/model.md, section 5: up to fiber_km) and the mean transceivers.
+SUMMARY_SHOWN = SUMMARY_COLUMNS[: SUMMARY_COLUMNS.index("fiber_km") + 1] + ["transceivers_mean"]
 
 
 @dataclass
@@ -100,6 +86,13 @@ class ResultFolder:
         return frame if frame is not None and not frame.empty else None
 
 
+def _read_csv(path: Path) -> pd.DataFrame:
+    try:
+        return pd.read_csv(path, dtype=_TEXT_COLUMNS, keep_default_na=False, na_values=["", "nan", "NaN"])
+    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, ValueError) as exc:
+        raise InputError(path, "contents", f"not a readable CSV table ({exc})") from None
+
+
 def read_results(folder: Path | str) -> ResultFolder:
     """Read every known CSV table and ``run.json`` present in ``folder``.
 
@@ -114,14 +107,8 @@ def read_results(folder: Path | str) -> ResultFolder:
     found = ResultFolder(path)
     for name in RESULT_TABLES:
         csv = path / f"{name}.csv"
-        if not csv.is_file():
-            continue
-        try:
-            found.tables[name] = pd.read_csv(
-                csv, dtype=_TEXT_COLUMNS, keep_default_na=False, na_values=["", "nan", "NaN"]
-            )
-        except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, ValueError) as exc:
-            raise InputError(csv, "contents", f"not a readable CSV table ({exc})") from None
+        if csv.is_file():
+            found.tables[name] = _read_csv(csv)
     run = path / "run.json"
     if run.is_file():
         try:
@@ -265,20 +252,14 @@ def _png_size(data: bytes) -> tuple[int, int]:
     return struct.unpack(">II", data[16:24])
 
 
-@dataclass
-class _Figure:
-    file: str
-    alt: str
-    caption: str
-
-
-def _figure_html(folder: Path, fig: _Figure) -> str:
-    data = (folder / fig.file).read_bytes()
+def _figure_html(png: Path, alt: str, caption: str) -> str:
+    """The figure just drawn to ``png``, embedded as a data URI with its caption and file name."""
+    data = png.read_bytes()
     width, height = _png_size(data)
     uri = "data:image/png;base64," + base64.b64encode(data).decode("ascii")
     return (
-        f'<figure><img src="{uri}" width="{width}" height="{height}" alt="{_esc(fig.alt)}">'
-        f'<figcaption>{fig.caption} <span class="file">({_esc(fig.file)})</span></figcaption></figure>'
+        f'<figure><img src="{uri}" width="{width}" height="{height}" alt="{_esc(alt)}">'
+        f'<figcaption>{caption} <span class="file">({_esc(png.name)})</span></figcaption></figure>'
     )
 
 
@@ -319,14 +300,14 @@ def _findings(summary: pd.DataFrame) -> str:
     if _missing(summary, ["architecture", "load_erlang", "blocking"]):
         return ""
     top = _highest_load_rows(summary)
-    loads = sorted(set(float(x) for x in top["load_erlang"]))
-    at = f"At {_cell(loads[0])} Erlang" if len(loads) == 1 else "At each architecture's highest load"
+    at = f"At {_loads_text(top)}" if top["load_erlang"].nunique() == 1 else "At each architecture's highest load"
     items = []
     best = top["blocking"].min()
-    winners = [str(a) for a in top.loc[top["blocking"] == best, "architecture"]]
+    best_rows = top[top["blocking"] == best]
+    winners = [str(a) for a in best_rows["architecture"]]
     interval = ""
     if len(winners) == 1 and not _missing(top, ["blocking_ci_low", "blocking_ci_high"]):
-        row = top.loc[top["blocking"] == best].iloc[0]
+        row = best_rows.iloc[0]
         interval = (
             f" (95 % interval {_percent(row['blocking_ci_low'])} to {_percent(row['blocking_ci_high'])})"
         )
@@ -379,21 +360,18 @@ def _simulation_section(res: ResultFolder) -> _Section | None:
     if missing:
         parts.append(_skip_note("summary.csv", missing))
     else:
-        figures.blocking_figure(
+        png = figures.blocking_figure(
             summary, res.path / "blocking.png", title="Request blocking vs offered load (95 % intervals)"
         )
         parts.append(
             _figure_html(
-                res.path,
-                _Figure(
-                    "blocking.png",
-                    "Request blocking probability against offered load, one line per architecture",
-                    "Request blocking against offered load.  Log scale; bars are 95 % confidence intervals.",
-                ),
+                png,
+                "Request blocking probability against offered load, one line per architecture",
+                "Request blocking against offered load.  Log scale; bars are 95 % confidence intervals.",
             )
         )
         if "bandwidth_blocking" in summary.columns:
-            figures.blocking_figure(
+            png = figures.blocking_figure(
                 summary,
                 res.path / "bandwidth_blocking.png",
                 column="bandwidth_blocking",
@@ -401,12 +379,9 @@ def _simulation_section(res: ResultFolder) -> _Section | None:
             )
             parts.append(
                 _figure_html(
-                    res.path,
-                    _Figure(
-                        "bandwidth_blocking.png",
-                        "Bandwidth blocking ratio against offered load, one line per architecture",
-                        "Bandwidth blocking (refused Gb/s over requested Gb/s) against offered load.",
-                    ),
+                    png,
+                    "Bandwidth blocking ratio against offered load, one line per architecture",
+                    "Bandwidth blocking (refused Gb/s over requested Gb/s) against offered load.",
                 )
             )
     parts.append(
@@ -423,17 +398,13 @@ def _resources_section(res: ResultFolder) -> _Section | None:
     missing = _missing(summary, need)
     if missing:
         return _Section("resources", "Equipment", _skip_note("summary.csv", missing))
-    figures.resources_figure(summary, res.path / "resources.png")
     parts = [
         "<p>Transceiver modules in use vary with load and are shown at the highest load point; "
         "switch ports and fiber pairs are the installed equipment and do not depend on load.</p>",
         _figure_html(
-            res.path,
-            _Figure(
-                "resources.png",
-                "Bar charts of transceiver modules, switch ports and fiber pairs per architecture",
-                "Equipment per architecture at the highest offered load.",
-            ),
+            figures.resources_figure(summary, res.path / "resources.png"),
+            "Bar charts of transceiver modules, switch ports and fiber pairs per architecture",
+            "Equipment per architecture at the highest offered load.",
         ),
     ]
     for name, caption in (
@@ -470,7 +441,7 @@ def _network_section(res: ResultFolder) -> _Section | None:
         and not _missing(cables, ["architecture", "load_erlang", "cable", "utilisation"])
         else None
     )
-    figures.topology_figure(topology["sites"], topology["cables"], res.path / "topology.png", use)
+    png = figures.topology_figure(topology["sites"], topology["cables"], res.path / "topology.png", use)
     located = all(s.get("x_km") is not None and s.get("y_km") is not None for s in topology["sites"])
     where = (
         "Sites are drawn at their coordinates (km)."
@@ -484,9 +455,7 @@ def _network_section(res: ResultFolder) -> _Section | None:
         )
     else:
         caption = f"The network with its installed fiber pairs per cable.  {where}"
-    parts = [
-        _figure_html(res.path, _Figure("topology.png", "Map of the network's sites and cables", caption))
-    ]
+    parts = [_figure_html(png, "Map of the network's sites and cables", caption)]
     if cables is not None:
         parts.append(
             _details(
@@ -504,24 +473,20 @@ def _estimate_section(res: ResultFolder) -> _Section | None:
         "<p>The analytic estimate needs no simulation; where both exist, the figure sets it beside the "
         "simulated results.  Large gaps point at effects the estimate leaves out.</p>"
     ]
+    summary = res.table("summary")
+    if summary is not None and _missing(summary, ["architecture", "load_erlang", "blocking"]):
+        summary = None
     missing = _missing(estimate, ["architecture", "load_erlang", "blocking"])
     if missing:
         parts.append(_skip_note("estimate.csv", missing))
     else:
-        summary = res.table("summary")
-        if summary is not None and _missing(summary, ["architecture", "load_erlang", "blocking"]):
-            summary = None
-        figures.estimate_figure(estimate, summary, res.path / "estimate.png")
+        png = figures.estimate_figure(estimate, summary, res.path / "estimate.png")
         caption = (
             "Analytic estimate (lines) and simulation (markers with 95 % intervals)."
             if summary is not None
             else "Analytic estimate (no simulation results in this folder)."
         )
-        parts.append(
-            _figure_html(
-                res.path, _Figure("estimate.png", "Estimated blocking against offered load", caption)
-            )
-        )
+        parts.append(_figure_html(png, "Estimated blocking against offered load", caption))
     parts.append(_estimate_gaps_html(summary))
     parts.append(html_table(estimate, caption="Analytic estimate (estimate.csv)"))
     return _Section("estimate", "Estimate", "\n".join(parts))
@@ -590,15 +555,11 @@ def _plan_section(res: ResultFolder) -> _Section | None:
         if missing:
             parts.append(_skip_note("plan.csv", missing))
         else:
-            figures.plan_figure(plan, res.path / "plan.png")
             parts.append(
                 _figure_html(
-                    res.path,
-                    _Figure(
-                        "plan.png",
-                        "Bar chart of planned fiber pairs per cable and architecture",
-                        "Fiber pairs per cable that meet the target blocking, per architecture.",
-                    ),
+                    figures.plan_figure(plan, res.path / "plan.png"),
+                    "Bar chart of planned fiber pairs per cable and architecture",
+                    "Fiber pairs per cable that meet the target blocking, per architecture.",
                 )
             )
             pivot = plan.pivot_table(
@@ -628,15 +589,11 @@ def _forecast_section(res: ResultFolder) -> _Section | None:
         parts.append(_skip_note("forecast.csv", ["year", "architecture"]))
     if totals is not None:
         if any(c in totals.columns for c in ("fiber_pairs", "transceivers_peak", "switch_ports")):
-            figures.forecast_figure(totals, res.path / "forecast.png")
             parts.append(
                 _figure_html(
-                    res.path,
-                    _Figure(
-                        "forecast.png",
-                        "Line charts of fiber pairs, transceivers and switch ports by year",
-                        "Network totals year by year under the forecast growth.",
-                    ),
+                    figures.forecast_figure(totals, res.path / "forecast.png"),
+                    "Line charts of fiber pairs, transceivers and switch ports by year",
+                    "Network totals year by year under the forecast growth.",
                 )
             )
         parts.append(html_table(totals, caption=f"Network totals per year and architecture ({source})"))
@@ -661,29 +618,15 @@ def _other_tables_section(folder: Path) -> _Section | None:
     others = sorted(p for p in folder.glob("*.csv") if p.name not in known and not p.name.startswith("."))
     parts = []
     for path in others:
-        try:
-            frame = pd.read_csv(
-                path, dtype=_TEXT_COLUMNS, keep_default_na=False, na_values=["", "nan", "NaN"]
-            )
-        except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, ValueError) as exc:
-            raise InputError(path, "contents", f"not a readable CSV table ({exc})") from None
+        frame = _read_csv(path)
         parts.append(_details(f"{path.name} ({len(frame)} rows)", html_table(frame)))
     if not parts:
         return None
     return _Section("other-tables", "Other tables", "\n".join(parts))
 
 
-_SCENARIO_ORDER = (
-    "name",
-    "seed",
-    "source",
-    "traffic",
-    "transceiver",
-    "run",
-    "architectures",
-    "plan",
-    "forecast",
-)
+# run.json's scenario is the Scenario dataclass written with sorted keys: show it in field order.
+_SCENARIO_ORDER = tuple(f.name for f in fields(Scenario))
 
 
 def _inputs_section(res: ResultFolder) -> _Section | None:
@@ -695,8 +638,9 @@ def _inputs_section(res: ResultFolder) -> _Section | None:
     files = {k: run.get(k) for k in ("scenario_file", "topology_file") if run.get(k)}
     if files:
         parts.append(_value_html(files))
-    keys = [k for k in _SCENARIO_ORDER if k in scenario] + sorted(
-        k for k in scenario if k not in _SCENARIO_ORDER and k != "topology"
+    # The topology has its own part below.
+    keys = [k for k in _SCENARIO_ORDER if k in scenario and k != "topology"] + sorted(
+        k for k in scenario if k not in _SCENARIO_ORDER
     )
     general = {k: scenario[k] for k in keys if not isinstance(scenario[k], (dict, list))}
     if general:
@@ -806,18 +750,6 @@ _SECTIONS: tuple[Callable[[ResultFolder], _Section | None], ...] = (
 )
 
 
-def _write_text(path: Path, text: str) -> None:
-    """Write atomically; a plain ``open`` so the file gets the usual permissions (umask)."""
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    try:
-        with open(tmp, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
-
-
 def write_report(folder: Path | str) -> Path:
     """Draw the figures and write a self-contained ``report.html`` for the results in ``folder``.
 
@@ -850,5 +782,5 @@ def write_report(folder: Path | str) -> Path:
         tail = [i for i, s in enumerate(sections) if s.anchor in ("inputs", "run")]
         sections.insert(tail[0] if tail else len(sections), extra)
     out = res.path / "report.html"
-    _write_text(out, _render(res, sections))
+    write_text(_render(res, sections), out)
     return out

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .architectures import unit_geometry
+from .architectures import cable_geometries
 from .model import Architecture, Scenario
 
 __all__ = ["InstalledResources", "installed_resources", "ModuleFigures", "module_figures"]
@@ -37,17 +37,19 @@ class InstalledResources:
     site_switch_ports: dict[str, int]
     switch_ports: int
     fiber_pairs: int
-    fiber_strands: int
     fiber_km: float
+
+    @property
+    def fiber_strands(self) -> int:
+        """Fibers: two per pair."""
+        return 2 * self.fiber_pairs
 
 
 def installed_resources(scenario: Scenario, arch: Architecture) -> InstalledResources:
     """Switch ports and fibers of ``arch`` on the scenario's topology (with its override)."""
     topo = scenario.topology_for(arch)
     ports = {s.id: 0 for s in topo.sites}
-    lane = scenario.transceiver.lane_gbps
-    for cable in topo.cables:
-        geo = unit_geometry(arch, topo.fiber_types[cable.fiber_type], lane)
+    for cable, geo in zip(topo.cables, cable_geometries(scenario, arch)):
         per_end = cable.fiber_pairs * geo.ports_per_fiber
         ports[cable.a] += per_end
         ports[cable.b] += per_end
@@ -56,7 +58,6 @@ def installed_resources(scenario: Scenario, arch: Architecture) -> InstalledReso
         site_switch_ports=ports,
         switch_ports=sum(ports.values()),
         fiber_pairs=pairs,
-        fiber_strands=2 * pairs,
         fiber_km=sum(2 * c.fiber_pairs * c.length_km for c in topo.cables),
     )
 
@@ -90,18 +91,14 @@ class ModuleFigures:
 
 def module_figures(scenario: Scenario, arch: Architecture) -> ModuleFigures:
     """The module ``arch`` needs, from the physics of its feasible routes (worst case)."""
-    from .pathtable import evaluate_route, feasible_routes
+    from .pathtable import evaluated_routes
     from .physics import mimo_cmul_per_bit, module_power_w
 
-    topo = scenario.topology_for(arch)
     trx = scenario.transceiver
-    size = taps = 0
-    for routes in feasible_routes(scenario, arch).values():
-        for route in routes:
-            phys = evaluate_route(topo, route, arch, trx)
-            size, taps = max(size, phys.mimo_size), max(taps, phys.mimo_taps)
-    first = topo.cables[0]
-    geo = unit_geometry(arch, topo.fiber_types[first.fiber_type], trx.lane_gbps)
+    feasible = [phys for *_pair, found in evaluated_routes(scenario, arch) for _route, phys in found if phys.feasible]
+    size = max((phys.mimo_size for phys in feasible), default=0)
+    taps = max((phys.mimo_taps for phys in feasible), default=0)
+    geo = cable_geometries(scenario, arch)[0]
     lanes = 1 if geo.whole_fiber else geo.lanes_per_unit
     if size and taps:
         fd = mimo_cmul_per_bit(size, taps, trx, "frequency")

@@ -15,6 +15,7 @@ from pathlib import Path
 
 import pandas as pd
 
+from .architectures import cable_geometries
 from .engine import EngineSetup
 from .model import Scenario
 from .resources import InstalledResources
@@ -30,6 +31,7 @@ __all__ = [
     "cable_table",
     "write_table",
     "write_json",
+    "write_text",
 ]
 
 # docs/model.md, section 5 names the first columns; the rest are ours.
@@ -74,7 +76,7 @@ def summary_table(
         arch = scenario.architecture(p.architecture)
         setup = setups[arch.name]
         res = resources[arch.name]
-        first_route = next((r for r in setup.route_unit_gbps if r), (float("nan"),))
+        unit = cable_geometries(scenario, arch)[0]
         rows.append(
             {
                 "architecture": arch.name,
@@ -97,21 +99,12 @@ def summary_table(
                 "transceiver_lanes_mean": p.lanes_mean,
                 "fiber_strands": res.fiber_strands,
                 "replications": p.replications,
-                "cores_per_unit": _cores_per_unit(scenario, arch.name),
-                "unit_gbps": first_route[0],
+                "cores_per_unit": unit.cores_per_unit,
+                "unit_gbps": unit.unit_gbps,
                 "unrouted_pairs": len(setup.unrouted_pairs),
             }
         )
     return pd.DataFrame(rows, columns=SUMMARY_COLUMNS)
-
-
-def _cores_per_unit(scenario: Scenario, name: str) -> int:
-    from .architectures import unit_geometry
-
-    arch = scenario.architecture(name)
-    topo = scenario.topology_for(arch)
-    cable = topo.cables[0]
-    return unit_geometry(arch, topo.fiber_types[cable.fiber_type], scenario.transceiver.lane_gbps).cores_per_unit
 
 
 def add_module_columns(summary: pd.DataFrame, modules: dict) -> pd.DataFrame:
@@ -256,6 +249,18 @@ def write_table(frame: pd.DataFrame, path: Path) -> Path:
     except ImportError:
         return path
     _atomic_write(path.with_suffix(".parquet"), lambda tmp: frame.to_parquet(tmp, index=False))
+    return path
+
+
+def write_text(text: str, path: Path) -> Path:
+    """Write ``text`` as UTF-8 with Unix line ends, atomically."""
+    path = Path(path)
+
+    def _write(tmp: str) -> None:
+        with open(tmp, "w", encoding="utf-8", newline="\n") as fh:
+            fh.write(text)
+
+    _atomic_write(path, _write)
     return path
 
 

@@ -38,6 +38,16 @@ def chain(fiber: FiberType, hops: int, fiber_pairs=1, length_km=10.0) -> Topolog
     return Topology("chain", {fiber.name: fiber}, sites, cables)
 
 
+def weighted_datacenter_chain(fiber: FiberType) -> Topology:
+    """Datacenters A - B - C in a line (10 and 12 km, one pair each), site weights 3 : 1 : 2."""
+    return Topology(
+        "abc",
+        {fiber.name: fiber},
+        (Site("A", "datacenter", 3.0), Site("B", "datacenter", 1.0), Site("C", "datacenter", 2.0)),
+        (Cable("A", "B", 10.0, fiber.name, 1), Cable("B", "C", 12.0, fiber.name, 1)),
+    )
+
+
 def scenario(
     topology: Topology,
     architectures,

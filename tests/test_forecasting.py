@@ -6,23 +6,17 @@ from dataclasses import replace
 
 import pandas as pd
 import pytest
-from builders import fiber_type, scenario
+from builders import fiber_type, scenario, weighted_datacenter_chain
 
 from sdmnet.forecasting import run_forecast, year_scenario
-from sdmnet.model import Architecture, Cable, ForecastSpec, PlanSpec, Site, Topology
+from sdmnet.model import Architecture, ForecastSpec, PlanSpec
 from sdmnet.planning import run_plan
 
 TARGET = 0.01
 
 
 def _chain_scenario(factors=(1.4, 2.0)):
-    fiber = fiber_type(cores=1, channels=4)
-    topo = Topology(
-        "abc",
-        {fiber.name: fiber},
-        (Site("A", "datacenter", 3.0), Site("B", "datacenter", 1.0), Site("C", "datacenter", 2.0)),
-        (Cable("A", "B", 10.0, fiber.name, 1), Cable("B", "C", 12.0, fiber.name, 1)),
-    )
+    topo = weighted_datacenter_chain(fiber_type(cores=1, channels=4))
     arch = Architecture("ind", "independent")
     sc = scenario(topo, [arch], loads=(6.0, 10.0), requests=2000, warmup=200, replications=3, pattern="gravity")
     return replace(sc, plan=PlanSpec(TARGET), forecast=ForecastSpec(years=len(factors), factors=tuple(factors)))

@@ -11,7 +11,7 @@ from dataclasses import replace
 
 import pandas as pd
 import pytest
-from builders import fiber_type, scenario, single_cable
+from builders import fiber_type, scenario, single_cable, weighted_datacenter_chain
 
 from sdmnet.model import Architecture, Cable, PlanSpec, Site, Topology
 from sdmnet.planning import (
@@ -50,13 +50,7 @@ def _single_cable_case(load=10.0, channels=5, requests=3000):
 def _three_datacenter_chain(load=12.0):
     # A - B - C, all datacenters, gravity weights 3 : 1 : 2, single-core fiber of 4 channels:
     # one fiber pair is a coarse step (4 servers), so one pair fewer clearly misses.
-    fiber = fiber_type(cores=1, channels=4)
-    topo = Topology(
-        "abc",
-        {fiber.name: fiber},
-        (Site("A", "datacenter", 3.0), Site("B", "datacenter", 1.0), Site("C", "datacenter", 2.0)),
-        (Cable("A", "B", 10.0, fiber.name, 1), Cable("B", "C", 12.0, fiber.name, 1)),
-    )
+    topo = weighted_datacenter_chain(fiber_type(cores=1, channels=4))
     arch = Architecture("ind", "independent")
     sc = scenario(topo, [arch], loads=(load,), requests=3000, warmup=300, replications=3, pattern="gravity")
     return replace(sc, plan=PlanSpec(target_blocking=TARGET)), arch

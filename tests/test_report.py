@@ -304,6 +304,13 @@ def test_forecast_totals_sum_pairs_over_cables_and_keep_network_figures() -> Non
     ]
 
 
+def test_a_table_lacking_its_figure_columns_gets_a_note_instead_of_a_figure(tmp_path: Path) -> None:
+    pd.DataFrame([{"architecture": "x", "load_erlang": 1.0}]).to_csv(tmp_path / "estimate.csv", index=False)
+    page = html.unescape(write_report(tmp_path).read_text(encoding="utf-8"))
+    assert "Figure skipped: estimate.csv lacks the column(s) blocking." in page
+    assert not list(tmp_path.glob("*.png"))
+
+
 def test_an_empty_or_missing_folder_is_an_input_error(tmp_path: Path) -> None:
     with pytest.raises(InputError, match="no result files"):
         write_report(tmp_path)

@@ -149,8 +149,8 @@ def _gap_hold_batches(load: float, seed: int, replication: int):
 def bare_erlang_loop(channels: int, load: float, seed: int, replication: int, requests: int, warmup: int) -> int:
     """Blocked requests among the measured ones, on one cable of ``channels`` single-lane servers.
 
-    Uses the same random streams and the same order of use as the engine (one draw record per
-    arrival, the first record's gap placing the first arrival), so its count equals the
+    Uses the same random streams and the same order of use as the engine (arrival ``i`` comes
+    ``gap[i]`` after arrival ``i - 1`` and holds for ``hold[i]``), so its count equals the
     engine's on the single-cable Erlang case.
     """
     batches = _gap_hold_batches(load, seed, replication)
@@ -161,12 +161,13 @@ def bare_erlang_loop(channels: int, load: float, seed: int, replication: int, re
     total = warmup + requests
     blocked = 0
     gaps, holds = next(batches)
-    t = gaps[0]
-    i = 1
+    t = 0.0
+    i = 0
     for n in range(total):
         if i == _BATCH:
             gaps, holds = next(batches)
             i = 0
+        t += gaps[i]
         while heap and heap[0][0] <= t:
             free |= pop(heap)[1]
         if free:
@@ -175,7 +176,6 @@ def bare_erlang_loop(channels: int, load: float, seed: int, replication: int, re
             push(heap, (t + holds[i], bit))
         elif n >= warmup:
             blocked += 1
-        t += gaps[i]
         i += 1
     return blocked
 
@@ -197,12 +197,13 @@ def simpy_floor_loop(channels: int, load: float, seed: int, replication: int, re
     total = warmup + requests
     blocked = 0
     gaps, holds = next(batches)
-    t = gaps[0]
-    i = 1
+    t = 0.0
+    i = 0
     for n in range(total):
         if i == _BATCH:
             gaps, holds = next(batches)
             i = 0
+        t += gaps[i]
         while peek() <= t:
             step()
         f = free[0]
@@ -215,7 +216,6 @@ def simpy_floor_loop(channels: int, load: float, seed: int, replication: int, re
             schedule(ev, NORMAL, t + holds[i] - env.now)
         elif n >= warmup:
             blocked += 1
-        t += gaps[i]
         i += 1
     return blocked
 
@@ -235,13 +235,14 @@ def same_allocation_loop(channels: int, load: float, seed: int, replication: int
     total = warmup + requests
     blocked = 0
     gaps, holds = next(batches)
-    t = gaps[0]
-    i = 1
+    t = 0.0
+    i = 0
     seq = 0
     for n in range(total):
         if i == _BATCH:
             gaps, holds = next(batches)
             i = 0
+        t += gaps[i]
         while heap and heap[0][0] <= t:
             give_back(pop(heap)[2])
         grant = take(cables, 1)
@@ -250,7 +251,6 @@ def same_allocation_loop(channels: int, load: float, seed: int, replication: int
             push(heap, (t + holds[i], seq, grant))
         elif n >= warmup:
             blocked += 1
-        t += gaps[i]
         i += 1
     return blocked
 

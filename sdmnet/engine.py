@@ -12,7 +12,8 @@ arrival (``env.peek`` / ``env.step``): the arrival chain costs no SimPy event, w
 events per request.
 
 Random numbers come from four independent streams per replication (interarrival times, pair,
-size, holding time), spawned from ``SeedSequence(scenario.seed, spawn_key=(replication,))``.
+size, holding time), spawned from ``SeedSequence(scenario.seed, spawn_key=(replication,))``;
+arrival ``i`` takes draw ``i`` of each stream.
 The streams do not depend on the architecture, so every architecture sees the very same
 demands (common random numbers), and a task's result does not depend on which process or
 machine runs it.
@@ -20,10 +21,13 @@ machine runs it.
 
 from __future__ import annotations
 
+import gc
 import math
 import time
 from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from dataclasses import asdict, dataclass, field
+from itertools import chain, islice
 
 import numpy as np
 import simpy
@@ -220,22 +224,55 @@ def replication_seed(seed: int, replication: int) -> np.random.SeedSequence:
     return np.random.SeedSequence(seed, spawn_key=(replication,))
 
 
-def _draws(seq: np.random.SeedSequence, setup: EngineSetup, rate: float) -> Iterator[tuple[float, int, int, float]]:
-    """Endless ``(gap, pair, size class, holding time)`` records from four independent generators.
+def _arrivals(
+    seq: np.random.SeedSequence,
+    setup: EngineSetup,
+    rate: float,
+    measured: range,
+    class_offered: np.ndarray,
+    pair_offered: np.ndarray,
+) -> Iterator[tuple[float, int, int, float]]:
+    """Endless ``(time, pair, size class, holding time)`` arrival records.
 
-    Drawn in batches of :data:`_BATCH` per generator (numpy per batch, plain Python floats and
-    ints per record), so the per-arrival cost is one tuple from a ``zip``.
+    Record ``i`` comes from draw ``i`` of four independent generators (interarrival gaps, pairs,
+    sizes, holding times), drawn in batches of :data:`_BATCH` with numpy.  The records of a batch
+    come from a ``zip`` chained in C, so an arrival costs one tuple.  While drawing, the records
+    whose index lies in ``measured`` are tallied into ``class_offered`` and ``pair_offered``
+    (offered counts need no work per arrival).
     """
-    ga, gp, gs, gh = (np.random.default_rng(s) for s in seq.spawn(4))
+    gap_rng, pair_rng, size_rng, hold_rng = (np.random.default_rng(s) for s in seq.spawn(4))
     pair_cum, size_cum = np.asarray(setup.pair_cumulative), np.asarray(setup.size_cumulative)
-    last_pair, last_size = len(pair_cum) - 1, len(size_cum) - 1
-    while True:
-        gaps = (ga.standard_exponential(_BATCH) / rate).tolist()
-        # Inverse CDF; min() guards against a uniform at the very top of float rounding.
-        pairs = np.minimum(np.searchsorted(pair_cum, gp.random(_BATCH), side="right"), last_pair).tolist()
-        sizes = np.minimum(np.searchsorted(size_cum, gs.random(_BATCH), side="right"), last_size).tolist()
-        holds = (gh.standard_exponential(_BATCH) * setup.mean_holding).tolist()
-        yield from zip(gaps, pairs, sizes, holds)
+
+    def batches() -> Iterator[Iterator[tuple[float, int, int, float]]]:
+        clock, first = 0.0, 0
+        while True:
+            gaps = gap_rng.standard_exponential(_BATCH) / rate
+            gaps[0] += clock
+            # add.accumulate sums left to right: the very floats of adding the gaps one by one.
+            times = np.add.accumulate(gaps)
+            clock = float(times[-1])
+            pairs = _inverse_cdf(pair_rng, pair_cum)
+            sizes = _inverse_cdf(size_rng, size_cum)
+            holds = hold_rng.standard_exponential(_BATCH) * setup.mean_holding
+            low, high = max(measured.start - first, 0), min(measured.stop - first, _BATCH)
+            if low < high:
+                class_offered[:] += np.bincount(sizes[low:high], minlength=len(class_offered))
+                pair_offered[:] += np.bincount(pairs[low:high], minlength=len(pair_offered))
+            first += _BATCH
+            yield zip(times.tolist(), pairs.tolist(), sizes.tolist(), holds.tolist())
+
+    return chain.from_iterable(batches())
+
+
+def _inverse_cdf(rng: np.random.Generator, cumulative: np.ndarray) -> np.ndarray:
+    """A batch of indices drawn with the given cumulative probabilities.
+
+    A single outcome draws nothing (the generators are independent, so this changes no other
+    draw).  ``minimum`` guards against a uniform at the very top of float rounding.
+    """
+    if len(cumulative) == 1:
+        return np.zeros(_BATCH, dtype=np.int64)
+    return np.minimum(np.searchsorted(cumulative, rng.random(_BATCH), side="right"), len(cumulative) - 1)
 
 
 class _Departure(simpy.events.Event):
@@ -243,26 +280,35 @@ class _Departure(simpy.events.Event):
     demand's departure time; its callback releases exactly what the demand holds.
 
     Built without :class:`simpy.Timeout`'s checks, since the holding time is a non-negative draw.
+    A run uses a subclass made by :meth:`for_run` that holds the environment and the release
+    callback as class attributes, so creating an event stores its booking only.
 
     Attributes
     ----------
     booking : tuple
-        ``(grant, cables, units, modules, lanes, a, b, parts)``: the units taken for the demand
-        alone (empty when it rides on shared units), the route's cables, units of ``grant`` on
-        each cable, transceiver modules and lanes the demand holds (both ends together), the
-        site indices of its ends, and the shared units it rides on with the capacity it uses
-        in each.
+        ``(grant, kind)`` for a demand on its own units: the units taken and its booking kind
+        (see :func:`_route_table`).  ``([], (modules, lanes, a, b, parts))`` for a demand on
+        shared units: the transceiver modules and lanes it holds itself (both ends together),
+        the site indices of its ends, and the shared units it rides on with the capacity it
+        uses in each.
     """
 
     # Triggered successfully from birth, with no value (class attributes: one less store each).
     _ok = True
     _value = None
 
-    def __init__(self, env: simpy.Environment, callbacks: list, booking: tuple) -> None:
-        # Three stores only (the booking stays one tuple): this runs once per accepted demand.
-        self.env = env
-        self.callbacks = callbacks
+    def __init__(self, booking: tuple) -> None:
+        # One store only: this runs once per accepted demand.
         self.booking = booking
+
+    @classmethod
+    def for_run(cls, env: simpy.Environment, release: Callable[[_Departure], None]) -> type[_Departure]:
+        """A subclass whose events belong to ``env`` and call ``release`` when processed.
+
+        SimPy replaces an event's ``callbacks`` on the instance when it processes it, so a
+        shared tuple on the class is safe.
+        """
+        return type("Departure", (cls,), {"env": env, "callbacks": (release,)})
 
     @property
     def grant(self) -> Grant:
@@ -291,29 +337,53 @@ class _LitUnit:
         self.cables = cables
 
 
-def _route_table(setup: EngineSetup) -> list[tuple[tuple[tuple[int, ...], tuple[int, ...], tuple[int, ...],
-                                                        tuple[int, ...]], ...]]:
-    """Per pair, per route in order: ``(cables, units, modules, lanes)``, the last three per size class.
+_BookingKind = tuple[int, int, int, int, int, int]
 
-    Modules and lanes count both ends of the demand.  Under fiber switching they follow from the
-    size alone: ceil(size / lane) single-lane modules per end (docs/model.md, section 2).
+
+def _route_table(setup: EngineSetup) -> tuple[list, list[tuple[tuple[int, ...], int, _BookingKind]]]:
+    """Per pair, per route in order, ``(cables, units, kinds)``; and every kind with its cables and units.
+
+    ``units`` and ``kinds`` are per size class.  A booking *kind* is one (pair, route, size class):
+    ``(index, modules, lanes, a, b, half)`` with the transceiver modules and lanes a demand of that
+    kind holds (both ends together), the site indices of its ends and the modules at each end.
+    Under fiber switching modules follow from the size alone: ceil(size / lane) single-lane
+    modules per end (docs/model.md, section 2).  The second list, indexed by kind, gives
+    ``(cables, units, kind)`` for turning per-kind stamps into per-cable figures.
     """
-    table = []
+    table, kinds = [], []
     for p, routes in enumerate(setup.routes):
+        a, b = setup.pair_sites[p]
         rows = []
         for r, cables in enumerate(routes):
-            units = setup.route_units[p][r]
-            if setup.whole_fiber:
-                ends = tuple(2 * max(1, math.ceil(s / setup.lane_gbps - 1e-9)) for s in setup.sizes_gbps)
-                modules, lanes = ends, ends
-            else:
-                modules = tuple(2 * n for n in units)
-                lanes = tuple(2 * n * setup.route_lanes_per_unit[p][r] for n in units)
-            rows.append((tuple(cables), tuple(units), modules, lanes))
+            units = tuple(setup.route_units[p][r])
+            route_kinds = []
+            for size, n in zip(setup.sizes_gbps, units):
+                if setup.whole_fiber:
+                    modules = lanes = 2 * max(1, math.ceil(size / setup.lane_gbps - 1e-9))
+                else:
+                    modules, lanes = 2 * n, 2 * n * setup.route_lanes_per_unit[p][r]
+                kind = (len(kinds), modules, lanes, a, b, modules // 2)
+                kinds.append((tuple(cables), n, kind))
+                route_kinds.append(kind)
+            rows.append((tuple(cables), units, tuple(route_kinds)))
         table.append(tuple(rows))
-    return table
+    return table, kinds
 
 
+@contextmanager
+def _older_objects_frozen() -> Iterator[None]:
+    """Freeze the collector's tracked objects for the block, unless someone froze them already."""
+    if gc.get_freeze_count():
+        yield
+        return
+    gc.freeze()
+    try:
+        yield
+    finally:
+        gc.unfreeze()
+
+
+@_older_objects_frozen()
 def simulate_replication(
     setup: EngineSetup,
     load_erlang: float,
@@ -360,14 +430,29 @@ def simulate_replication(
     measured arrivals) are kept without touching every cable and site at each arrival: with
     ``m`` the number of measured arrivals so far, a change ``d`` of a figure adds ``-d * m`` to
     its stamp, and at the end ``sum over arrivals = final value * m_final + stamp``.  This is
-    exact integer arithmetic, the same sum as sampling every figure at every arrival.
+    exact integer arithmetic, the same sum as sampling every figure at every arrival.  Through
+    the warm-up ``m`` counts up from ``-warmup`` to 0 and the stamps are zeroed when measuring
+    starts, so warm-up changes count as the starting state.  Demands
+    on their own units stamp their booking kind only (one figure instead of every cable and
+    site they touch); the kinds' stamps are spread over cables and sites at the end.
+
+    The objects alive before the run (imported modules, the caller's data) are frozen out of
+    the garbage collector's way for its duration (:func:`gc.freeze`): the run's own garbage
+    dies young, and full collections would otherwise scan every one of them again (and, in a
+    forked worker, copy the pages they sit on).
     """
     started = time.perf_counter()
     arch = setup.architecture
     if load_erlang <= 0:
         raise ValueError("load_erlang must be positive")
     rate = load_erlang / setup.mean_holding
-    next_draw = _draws(replication_seed(seed, replication), setup, rate).__next__
+    sizes = setup.sizes_gbps
+    nclass, npair, nsite, ncable = len(sizes), len(setup.pairs), len(setup.sites), len(setup.cables)
+    class_offered = np.zeros(nclass, dtype=np.int64)
+    pair_offered = np.zeros(npair, dtype=np.int64)
+    arrivals = _arrivals(
+        replication_seed(seed, replication), setup, rate, range(warmup, warmup + requests), class_offered, pair_offered
+    )
     env = simpy.Environment()
     schedule = env.schedule
     state: UnitState | FiberState
@@ -379,29 +464,37 @@ def simulate_replication(
     busy = state.busy_units
     share = arch.share
     whole_fiber = setup.whole_fiber
-    sizes = setup.sizes_gbps
-    route_table = _route_table(setup)
+    route_table, kinds = _route_table(setup)
     route_gbps, route_lanes = setup.route_unit_gbps, setup.route_lanes_per_unit
     pair_sites = setup.pair_sites
-    nclass, npair, nsite, ncable = len(sizes), len(setup.pairs), len(setup.sites), len(setup.cables)
-    total = warmup + requests
 
-    class_offered = [0] * nclass
     class_blocked = [0] * nclass
-    pair_offered = [0] * npair
     pair_blocked = [0] * npair
     site_modules = [0] * nsite
     site_peak = [0] * nsite
     site_stamp = [0] * nsite
     cable_stamp = [0] * ncable
-    m = 0  # measured so far
+    kind_stamp = [0] * len(kinds)
+    m = -warmup  # measured arrivals so far; counts up to 0 through the warm-up
     modules = lanes = modules_peak = lanes_peak = modules_stamp = lanes_stamp = 0
-    offered_gbps = blocked_gbps = 0.0
+    blocked_gbps = 0.0
     lit: dict[tuple[int, int], list[_LitUnit]] = {}
-    no_parts: tuple = ()
+
+    def release_own(event: _Departure) -> None:
+        nonlocal modules, lanes
+        grant, (j, d_modules, d_lanes, a, b, half) = event.booking
+        give_back(grant)
+        kind_stamp[j] += m
+        modules -= d_modules
+        lanes -= d_lanes
+        site_modules[a] -= half
+        site_modules[b] -= half
+        if observer is not None:
+            observer("release", event)
 
     def change_modules(a: int, b: int, d_modules: int, d_lanes: int) -> None:
-        nonlocal modules, lanes, modules_stamp, lanes_stamp
+        # Demands on shared units only: their modules change with the lit units, not per kind.
+        nonlocal modules, lanes, modules_stamp, lanes_stamp, modules_peak, lanes_peak
         modules += d_modules
         lanes += d_lanes
         modules_stamp -= d_modules * m
@@ -411,14 +504,13 @@ def simulate_replication(
         site_modules[b] += half
         site_stamp[a] -= half * m
         site_stamp[b] -= half * m
+        modules_peak = max(modules_peak, modules)
+        lanes_peak = max(lanes_peak, lanes)
+        site_peak[a] = max(site_peak[a], site_modules[a])
+        site_peak[b] = max(site_peak[b], site_modules[b])
 
-    def depart(event: _Departure) -> None:
-        grant, cables, units, d_modules, d_lanes, a, b, parts = event.booking
-        if grant:
-            give_back(grant)
-            held = units * m
-            for h in cables:
-                cable_stamp[h] += held
+    def release_shared(event: _Departure) -> None:
+        _grant, (d_modules, d_lanes, a, b, parts) = event.booking
         for unit, amount in parts:
             unit.used -= amount
             unit.spare += amount
@@ -432,8 +524,9 @@ def simulate_replication(
         if observer is not None:
             observer("release", event)
 
-    def book_shared(p: int, k: int, size: float) -> tuple | None:
-        for r, (cables, _units, route_modules, _lanes) in enumerate(route_table[p]):
+    def book_shared(p: int, k: int) -> tuple | None:
+        size = sizes[k]
+        for r, (cables, _units, route_kinds) in enumerate(route_table[p]):
             # Spare capacity of units already lit on this route first, then new units.
             units = lit.setdefault((p, r), [])
             plan, need = [], size
@@ -456,7 +549,7 @@ def simulate_replication(
                     break
                 grants.append(g)
             else:
-                return light_units(p, r, cables, route_modules[k], plan, need, grants)
+                return light_units(p, r, cables, route_kinds[k][1], plan, need, grants)
         return None
 
     def light_units(
@@ -481,89 +574,106 @@ def simulate_replication(
             need -= amount
             units.append(unit)
             plan.append((unit, amount))
-        if whole_fiber:  # single-lane modules per demand, whatever fiber carries it
-            return ([], cables, 0, fiber_modules, fiber_modules, a, b, plan)
-        # Under unit switching the modules belong to the lit units (counted above).
-        return ([], cables, 0, 0, 0, a, b, plan)
+        # Fiber switching: single-lane modules per demand, whatever fiber carries it; unit
+        # switching: the modules belong to the lit units (counted above).
+        d_modules = fiber_modules if whole_fiber else 0
+        change_modules(a, b, d_modules, d_modules)
+        return ([], (d_modules, d_modules, a, b, plan))
 
-    # Arrivals are a plain loop over the draws; departures are events on SimPy's queue, and the
-    # loop lets SimPy process every departure due before each arrival (env.peek / env.step).
+    departure = _Departure.for_run(env, release_shared if share else release_own)
+    # Arrivals are a plain loop over the records; departures are events on SimPy's queue, and
+    # the loop lets SimPy process every departure due before each arrival (env.peek / env.step).
     # An arrival then books at its own time t: the departure is scheduled `t + hold - now`
     # after SimPy's clock, which is exact whenever now >= (t + hold) / 2 (Sterbenz), i.e. in
     # all but the first instants of a run.
     peek, step = env.peek, env.step
-    t = next_draw()[0] if total > 0 else 0.0
-    for n in range(total):
-        while peek() <= t:
-            step()
-        gap, p, k, hold = next_draw()
-        size = sizes[k]
-        measured = n >= warmup
-        if measured:
-            if n == warmup:
-                modules_peak, lanes_peak = modules, lanes
-                site_peak[:] = site_modules
+    t = 0.0
+    for measuring, count in ((False, warmup), (True, requests)):
+        records = islice(arrivals, count)
+        if measuring:
+            # The measured period starts at its first arrival: what departs before it still
+            # belongs to the warm-up, and every change until then is part of the starting state.
+            first = next(records, None)
+            if first is not None:
+                while peek() <= first[0]:
+                    step()
+                records = chain((first,), records)
+            modules_peak, lanes_peak = modules, lanes
+            site_peak[:] = site_modules
+            modules_stamp = lanes_stamp = 0
+            for stamps in (site_stamp, cable_stamp, kind_stamp):
+                stamps[:] = [0] * len(stamps)
+        for t, p, k, hold in records:
+            while peek() <= t:
+                step()
             m += 1
-            class_offered[k] += 1
-            pair_offered[p] += 1
-            offered_gbps += size
-        booking = None
-        if share:
-            booking = book_shared(p, k, size)
-        else:
-            for cables, units, route_modules, route_lanes_k in route_table[p]:
-                grant = take(cables, units[k])
-                if grant is not None:
-                    a, b = pair_sites[p]
-                    booking = (grant, cables, units[k], route_modules[k], route_lanes_k[k], a, b, no_parts)
-                    break
-        if booking is None:
-            if measured:
-                class_blocked[k] += 1
-                pair_blocked[p] += 1
-                blocked_gbps += size
-            if observer is not None:
-                observer("block", (p, k))
-        else:
-            grant, cables, units_k, d_modules, d_lanes, a, b, _parts = booking
-            if grant:
-                held = units_k * m
-                for h in cables:
-                    cable_stamp[h] -= held
-            change_modules(a, b, d_modules, d_lanes)
-            if modules > modules_peak:
-                modules_peak = modules
-            if lanes > lanes_peak:
-                lanes_peak = lanes
-            if site_modules[a] > site_peak[a]:
-                site_peak[a] = site_modules[a]
-            if site_modules[b] > site_peak[b]:
-                site_peak[b] = site_modules[b]
-            leave = _Departure(env, [depart], booking)
-            schedule(leave, NORMAL, t + hold - env.now)
-            if observer is not None:
-                observer("book", leave)
-        if n + 1 < total:
-            t += gap
+            if share:
+                booking = book_shared(p, k)
+            else:
+                for cables, units, route_kinds in route_table[p]:
+                    grant = take(cables, units[k])
+                    if grant is not None:
+                        kind = route_kinds[k]
+                        j, d_modules, d_lanes, a, b, half = kind
+                        kind_stamp[j] -= m
+                        modules += d_modules
+                        lanes += d_lanes
+                        site_modules[a] += half
+                        site_modules[b] += half
+                        if modules > modules_peak:
+                            modules_peak = modules
+                        if lanes > lanes_peak:
+                            lanes_peak = lanes
+                        if site_modules[a] > site_peak[a]:
+                            site_peak[a] = site_modules[a]
+                        if site_modules[b] > site_peak[b]:
+                            site_peak[b] = site_modules[b]
+                        booking = (grant, kind)
+                        break
+                else:
+                    booking = None
+            if booking is None:
+                if m > 0:
+                    class_blocked[k] += 1
+                    pair_blocked[p] += 1
+                    blocked_gbps += sizes[k]
+                if observer is not None:
+                    observer("block", (p, k))
+            else:
+                leave = departure(booking)
+                schedule(leave, NORMAL, t + hold - env.now)
+                if observer is not None:
+                    observer("book", leave)
     if drain:
         env.run()
     end_time = max(t, env.now)
 
+    # Spread the kinds' stamps over the cables, sites and totals they stand for.
+    for (cables, units, (_j, d_modules, d_lanes, a, b, half)), stamp in zip(kinds, kind_stamp):
+        if stamp:
+            for h in cables:
+                cable_stamp[h] += units * stamp
+            modules_stamp += d_modules * stamp
+            lanes_stamp += d_lanes * stamp
+            site_stamp[a] += half * stamp
+            site_stamp[b] += half * stamp
+    m = max(m, 0)
     measured = max(requests, 1)
     capacity = [state.capacity_units(i) for i in range(ncable)]
     cable_sum = [busy[h] * m + cable_stamp[h] for h in range(ncable)]
     site_sum = [site_modules[s] * m + site_stamp[s] for s in range(nsite)]
+    offered = class_offered.tolist()
     return ReplicationRecord(
         architecture=arch.name,
         load_erlang=float(load_erlang),
         replication=replication,
-        requests=sum(class_offered),
+        requests=sum(offered),
         blocked=sum(class_blocked),
-        offered_gbps=offered_gbps,
+        offered_gbps=float(sum(n * s for n, s in zip(offered, sizes))),
         blocked_gbps=blocked_gbps,
-        class_offered=class_offered,
+        class_offered=offered,
         class_blocked=class_blocked,
-        pair_offered=pair_offered,
+        pair_offered=pair_offered.tolist(),
         pair_blocked=pair_blocked,
         transceivers_peak=modules_peak,
         transceivers_mean=(modules * m + modules_stamp) / measured,

@@ -65,7 +65,8 @@ def run_manifest(
         "seeds": {
             "scenario_seed": scenario.seed,
             "rule": "replication r uses numpy SeedSequence(scenario_seed, spawn_key=(r,)), spawned into "
-            "4 streams (interarrival, pair, size, holding); the same for every architecture and load",
+            "4 streams (interarrival, pair, size, holding), arrival i taking draw i of each; the same for "
+            "every architecture and load",
             "replications": scenario.run.replications,
         },
         "pairs_without_feasible_route": unrouted,

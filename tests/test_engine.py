@@ -10,10 +10,13 @@ sdmnet's own analytic module), so the engine is checked against an independent s
 
 from __future__ import annotations
 
-import pytest
-from builders import chain, fiber_type, scenario, shortest_routes, single_cable
+from itertools import islice
 
-from sdmnet.engine import prepare, simulate_replication
+import numpy as np
+import pytest
+from builders import chain, fiber_type, scenario, shortest_routes, single_cable, weighted_datacenter_chain
+
+from sdmnet.engine import _BATCH, _arrivals, prepare, replication_seed, simulate_replication
 from sdmnet.errors import ConfigurationError
 from sdmnet.model import Architecture
 from sdmnet.stats import ratio_interval
@@ -178,3 +181,102 @@ def test_same_seed_same_record_and_architectures_share_demands():
     # Common random numbers: the offered demands are identical across architectures.
     assert a.class_offered == c.class_offered and a.pair_offered == c.pair_offered
     assert a.sim_time == c.sim_time
+
+
+@pytest.mark.parametrize(
+    "arch",
+    [
+        Architecture("ind", "independent", lane_change=False),
+        Architecture("fj2", "fractional-joint", group=2),
+        Architecture("joint", "joint"),
+    ],
+)
+# A long measured period, and a very short one after a warm-up whose last demands partly leave
+# before the first measured arrival (its peaks hang on the state that arrival finds).
+@pytest.mark.parametrize(("warmup", "requests"), [(700, 4000), (615, 3)])
+def test_time_averages_and_peaks_equal_sampling_the_state_at_every_measured_arrival(arch, warmup, requests):
+    # The engine keeps time averages by stamps and peaks at bookings; here the same figures are
+    # rebuilt by brute force from the observer's bookings and releases (Poisson arrivals see
+    # time averages: the mean over arrivals of the state each arrival finds).
+    fiber = fiber_type(cores=4, channels=5)
+    sc = scenario(weighted_datacenter_chain(fiber), [arch], loads=(9.0,), sizes=((100.0, 0.6), (200.0, 0.4)))
+    setup = prepare(sc, arch, shortest_routes)
+    lanes_per_unit = setup.route_lanes_per_unit[0][0]
+    site_of = {s: i for i, s in enumerate(setup.sites)}
+    ends = {}  # cables of a route -> its end sites (the sites met once)
+    for cables in {tuple(sorted(c)) for routes in setup.routes for c in routes}:
+        met = [site_of[s] for h in cables for s in setup.cables[h].split("-")]
+        ends[cables] = [s for s in set(met) if met.count(s) == 1]
+    busy = [0] * len(setup.cables)
+    sites = [0] * len(setup.sites)
+    totals = {"modules": 0, "lanes": 0}
+    sums = {"busy": [0] * len(busy), "sites": [0] * len(sites), "modules": 0, "lanes": 0}
+    peaks = {"modules": 0, "lanes": 0, "sites": [0] * len(sites)}
+    arrivals = 0
+
+    def apply(grant, sign):
+        per_cable = {}
+        for h, _pos, _bit in grant:
+            per_cable[h] = per_cable.get(h, 0) + 1
+        units = next(iter(per_cable.values()))
+        for h, n in per_cable.items():
+            busy[h] += sign * n
+        for s in ends[tuple(sorted(per_cable))]:
+            sites[s] += sign * units
+        totals["modules"] += sign * 2 * units
+        totals["lanes"] += sign * 2 * units * lanes_per_unit
+
+    def note_peaks():
+        for key in ("modules", "lanes"):
+            peaks[key] = max(peaks[key], totals[key])
+        peaks["sites"] = [max(a, b) for a, b in zip(peaks["sites"], sites)]
+
+    def observe(kind, payload):
+        nonlocal arrivals
+        if kind == "release":
+            apply(payload.grant, -1)
+            return
+        arrivals += 1
+        if arrivals > warmup:  # the state this measured arrival finds
+            if arrivals == warmup + 1:
+                note_peaks()
+            sums["busy"] = [a + b for a, b in zip(sums["busy"], busy)]
+            sums["sites"] = [a + b for a, b in zip(sums["sites"], sites)]
+            sums["modules"] += totals["modules"]
+            sums["lanes"] += totals["lanes"]
+        if kind == "book":
+            apply(payload.grant, +1)
+            if arrivals > warmup:
+                note_peaks()
+
+    rec = simulate_replication(setup, 9.0, 5, 1, requests, warmup, observer=observe)
+    assert arrivals == warmup + requests
+    capacity = [f * g * w for f, g, w in zip(setup.fiber_pairs, setup.groups_per_fiber, setup.channels)]
+    expected_utilisation = [b / requests / c for b, c in zip(sums["busy"], capacity)]
+    assert rec.cable_utilisation == pytest.approx(expected_utilisation, rel=1e-12)
+    assert rec.transceivers_mean == pytest.approx(sums["modules"] / requests, rel=1e-12)
+    assert rec.lanes_mean == pytest.approx(sums["lanes"] / requests, rel=1e-12)
+    assert rec.site_transceivers_mean == pytest.approx([s / requests for s in sums["sites"]], rel=1e-12)
+    assert (rec.transceivers_peak, rec.lanes_peak) == (peaks["modules"], peaks["lanes"])
+    assert rec.site_transceivers_peak == peaks["sites"]
+
+
+def test_arrival_records_are_sequential_sums_and_offered_counts_tally_the_measured_ones():
+    # Arrival times from batched numpy draws must be the very floats of adding the gaps one by
+    # one, across batch boundaries; offered counts tallied per batch must equal counting records.
+    arch = Architecture("ind", "independent")
+    sc = scenario(weighted_datacenter_chain(fiber_type()), [arch], sizes=((100.0, 0.5), (200.0, 0.3), (300.0, 0.2)))
+    setup = prepare(sc, arch, shortest_routes)
+    total, measured = 2 * _BATCH + 123, range(1000, 2 * _BATCH + 100)
+    class_offered, pair_offered = np.zeros(3, dtype=np.int64), np.zeros(3, dtype=np.int64)
+    records = list(islice(_arrivals(replication_seed(4, 2), setup, 2.5, measured, class_offered, pair_offered), total))
+    gaps = np.random.default_rng(replication_seed(4, 2).spawn(4)[0])
+    clock, expected_times = 0.0, []
+    for _ in range(3):
+        for gap in (gaps.standard_exponential(_BATCH) / 2.5).tolist():
+            clock += gap
+            expected_times.append(clock)
+    assert [r[0] for r in records] == expected_times[:total]
+    assert class_offered.tolist() == [sum(records[i][2] == k for i in measured) for k in range(3)]
+    assert pair_offered.tolist() == [sum(records[i][1] == p for i in measured) for p in range(3)]
+    assert all(h > 0 for *_, h in records)

@@ -11,9 +11,12 @@ import argparse
 import heapq
 import json
 import os
+import re
+import shutil
 import subprocess
 import sys
 import time
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
 from pathlib import Path
 
@@ -255,13 +258,18 @@ def same_allocation_loop(channels: int, load: float, seed: int, replication: int
     return blocked
 
 
-def erlang_ratio(channels: int = 40, load: float = 30.0, requests: int = 300_000, repeats: int = 3) -> dict:
-    """Engine and bare loop on one cable of ``channels`` single-core channels; times and ratio."""
+def erlang_setup(channels: int, load: float) -> EngineSetup:
+    """The single-cable Erlang case: one cable of ``channels`` single-core channels, 1-lane demands."""
     fiber = FiberType("f1", 1, "weak", 1, channels, 0.2)
     topo = Topology("one", {"f1": fiber}, (Site("A", "datacenter"), Site("B", "datacenter")),
                     (Cable("A", "B", 10.0, "f1", 1),))
     arch = Architecture("ind", "independent")
-    setup = prepare(bench_scenario(topo, arch, load, sizes=((LANE_GBPS, 1.0),), k_paths=1), arch, shortest_routes)
+    return prepare(bench_scenario(topo, arch, load, sizes=((LANE_GBPS, 1.0),), k_paths=1), arch, shortest_routes)
+
+
+def erlang_ratio(channels: int = 40, load: float = 30.0, requests: int = 300_000, repeats: int = 3) -> dict:
+    """Engine and bare loop on one cable of ``channels`` single-core channels; times and ratio."""
+    setup = erlang_setup(channels, load)
     warmup = requests // 10
     t_engine, t_bare, t_floor, t_same = float("inf"), float("inf"), float("inf"), float("inf")
     for _ in range(repeats):
@@ -291,6 +299,36 @@ def erlang_ratio(channels: int = 40, load: float = 30.0, requests: int = 300_000
         "engine_rps": (requests + warmup) / t_engine,
         "bare_rps": (requests + warmup) / t_bare,
     }
+
+
+# ---- instructions: a count that does not depend on what else runs on the machine ----
+
+_COUNT_CHILD = """
+import sys
+sys.path.insert(0, {bench!r})
+from bench_engine import erlang_setup, same_allocation_loop
+from sdmnet.engine import simulate_replication
+setup = erlang_setup({channels}, {load})
+if {engine}:
+    simulate_replication(setup, {load}, 5, 0, {requests}, {requests} // 10)
+else:
+    same_allocation_loop({channels}, {load}, 5, 0, {requests}, {requests} // 10)
+"""
+
+
+def instructions_per_request(engine: bool, channels: int = 40, load: float = 30.0) -> float:
+    """Instructions per request (warm-up included) of the engine or of the same-allocation loop on
+    the single-cable case, counted by valgrind's callgrind as the difference of two run lengths
+    (so start-up and imports cancel)."""
+    counts = []
+    for requests in (10_000, 30_000):
+        code = _COUNT_CHILD.format(
+            bench=str(Path(__file__).parent), channels=channels, load=load, requests=requests, engine=engine
+        )
+        out = subprocess.run(["valgrind", "--tool=callgrind", "--callgrind-out-file=/dev/null", sys.executable,
+                              "-c", code], capture_output=True, text=True, check=True)
+        counts.append(int(re.search(r"Collected : (\d+)", out.stderr).group(1)))
+    return (counts[1] - counts[0]) / (1.1 * 20_000)
 
 
 # ---- memory: each measurement in a fresh process ----
@@ -324,6 +362,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--quick", action="store_true", help="shorter runs (noisier figures)")
     parser.add_argument("--load", type=float, help="NSFNET load in Erlang (default: searched for ~1 %% blocking)")
     parser.add_argument("--skip-memory", action="store_true")
+    parser.add_argument("--instructions", action="store_true",
+                        help="also count instructions per request under valgrind (slow, needs valgrind)")
     args = parser.parse_args(argv)
     requests = 100_000 if args.quick else 300_000
     print(f"python {sys.version.split()[0]}, pid {os.getpid()}, load average {os.getloadavg()[0]:.2f}")
@@ -338,7 +378,7 @@ def main(argv: list[str] | None = None) -> int:
     rate, blocking = engine_rate(setup, load, requests)
     print(f"  engine: {rate:,.0f} requests/s on one core (blocking {blocking:.4f}, {requests:,} measured)")
 
-    r = erlang_ratio(requests=requests)
+    r = erlang_ratio(requests=requests, repeats=5)
     print(
         f"single cable, 40 channels, 30 Erlang: engine {r['engine_rps']:,.0f} req/s, bare heapq loop "
         f"{r['bare_rps']:,.0f} req/s, ratio engine/bare time = {r['ratio']:.2f} "
@@ -348,6 +388,15 @@ def main(argv: list[str] | None = None) -> int:
           f"(blocked {r['floor_blocked']})")
     print(f"  engine / bare heapq loop doing the engine's allocation (UnitState take/give_back): "
           f"{r['same_ratio']:.2f} (blocked {r['same_blocked']})")
+
+    if args.instructions:
+        if shutil.which("valgrind") is None:
+            print("instructions: valgrind not found, skipped")
+        else:
+            with ThreadPoolExecutor(max_workers=2) as pool:
+                engine_count, same_count = pool.map(instructions_per_request, (True, False))
+            print(f"  instructions per request (callgrind): engine {engine_count:,.0f}, bare heapq loop doing the "
+                  f"engine's allocation {same_count:,.0f}, ratio {engine_count / same_count:.2f}")
 
     if not args.skip_memory:
         for traced in (False, True):

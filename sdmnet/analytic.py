@@ -234,7 +234,9 @@ def _blocking_from_log(log_q: np.ndarray, capacities: np.ndarray, sizes: np.ndar
         ok = idx >= 0
         tail = np.where(ok, p[np.clip(idx, 0, top), rows[:, None]], 0.0).sum(axis=1)
         out[:, k] = tail / total
-    return out
+    # A call larger than the link sums every state in both, in different orders: the ratio can
+    # round just past 1, and 1 - B < 0 would then thin a load below zero.
+    return np.minimum(out, 1.0)
 
 
 def _single_link(

@@ -335,6 +335,22 @@ def test_fixed_point_link_without_capacity_blocks_and_thins_to_zero():
     assert result.stream_blocking[1] == pytest.approx(erlang_b_logsum(10, 5.0), rel=1e-10)
 
 
+@pytest.mark.filterwarnings("error")
+def test_fixed_point_calls_larger_than_their_links_block_exactly_and_thin_to_zero_not_below():
+    # 16-unit calls over links of 10 and 9 units: blocked with probability 1 (not 1 + rounding),
+    # so the loads they leave on their other links are zero, never negative (a negative load
+    # would take the log of a negative occupancy).
+    streams = [Stream(1.5159, (2,), 16), Stream(0.6683, (0, 1, 2), 1), Stream(1.2755, (0, 1, 2), 16)]
+    result = reduced_load_fixed_point([22, 10, 9], streams)
+    assert result.converged
+    assert np.all(result.link_loads >= 0.0)
+    assert np.all(result.link_blocking <= 1.0)
+    assert result.stream_blocking[0] == 1.0 and result.stream_blocking[2] == 1.0
+    # The 1-unit stream then meets only its own load on each link: three Erlang B links
+    # (capacity >= 9 at under 1 Erlang), each thinned by the other two.
+    assert 0.0 < result.stream_blocking[1] < 1e-6
+
+
 def test_fixed_point_units_may_differ_per_link():
     # 2 units on link 0, 1 unit on link 1: each link sees its own size class.
     result = reduced_load_fixed_point([6, 6], [Stream(1.0, (0, 1), (2, 1))])

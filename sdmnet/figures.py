@@ -396,6 +396,80 @@ def _panel_loads(utilisation: pd.DataFrame, order: list[str]) -> dict[str, tuple
     return out
 
 
+# Label positions tried around a site, in points: (dx, dy, horizontal, vertical alignment).
+_LABEL_SPOTS = (
+    (5, 5, "left", "bottom"),
+    (5, -5, "left", "top"),
+    (-5, 5, "right", "bottom"),
+    (-5, -5, "right", "top"),
+    (0, 8, "center", "bottom"),
+    (0, -8, "center", "top"),
+    (8, 0, "left", "center"),
+    (-8, 0, "right", "center"),
+)
+
+
+def _overlap(a: Any, b: Any) -> float:
+    """Area shared by two display-space boxes."""
+    w = min(a.x1, b.x1) - max(a.x0, b.x0)
+    h = min(a.y1, b.y1) - max(a.y0, b.y0)
+    return w * h if w > 0 and h > 0 else 0.0
+
+
+def _place_site_labels(ax: plt.Axes, pos: dict[str, tuple[float, float]], segments: list) -> None:
+    """Label every site at the spot around it that covers the fewest labels, sites and cables.
+
+    Greedy, crowded sites first: each candidate box is scored by the area it shares with labels
+    already placed and with site markers, the area it sticks out of the axes, and a share of
+    its own area for every cable it crosses.  The first spot in :data:`_LABEL_SPOTS` wins ties.
+    """
+    from matplotlib.path import Path as PolyPath
+    from matplotlib.transforms import Bbox
+
+    renderer = ax.figure.canvas.get_renderer()
+    to_display = ax.transData.transform
+    points = {s: to_display(xy) for s, xy in pos.items()}
+    scale = ax.figure.dpi / 72.0  # display units per point
+    half = 5.0 * scale  # half a site marker
+    markers = [Bbox.from_extents(x - half, y - half, x + half, y + half) for x, y in points.values()]
+    lines = [PolyPath(to_display([a, b])) for a, b in segments]
+    frame = ax.bbox
+
+    def crowding(site: str) -> int:
+        x, y = points[site]
+        return sum(math.hypot(x - u, y - v) < 60 * scale for u, v in points.values())
+
+    placed: list = []
+    for site in sorted(pos, key=lambda s: (-crowding(s), s)):
+        label = ax.annotate(
+            site,
+            pos[site],
+            xytext=(5, 5),
+            textcoords="offset points",
+            fontsize=7,
+            color=INK,
+            zorder=5,
+            bbox={"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.75},
+        )
+        best = None
+        for dx, dy, ha, va in _LABEL_SPOTS:
+            label.set_position((dx, dy))
+            label.set_ha(ha)
+            label.set_va(va)
+            box = label.get_window_extent(renderer)
+            area = box.width * box.height
+            outside = area - _overlap(box, frame)
+            score = sum(_overlap(box, other) for other in placed + markers) + outside
+            score += 0.15 * area * sum(line.intersects_bbox(box, filled=False) for line in lines)
+            if best is None or score < best[0] - 1e-9:
+                best = (score, dx, dy, ha, va, box)
+        _, dx, dy, ha, va, box = best
+        label.set_position((dx, dy))
+        label.set_ha(ha)
+        label.set_va(va)
+        placed.append(box)
+
+
 @_with_look
 def topology_figure(
     sites: Sequence[dict],
@@ -426,15 +500,17 @@ def topology_figure(
     by_utilisation = utilisation is not None and not utilisation.empty
     order = _architectures(utilisation) if by_utilisation else [""]
     panels = _panel_loads(utilisation, order) if by_utilisation else {}
-    ncols = min(len(order), 3)
-    nrows = math.ceil(len(order) / ncols)
     xs = [p[0] for p in pos.values()]
     ys = [p[1] for p in pos.values()]
     pad_x = 0.12 * (max(xs) - min(xs) or 1.0)
     pad_y = 0.12 * (max(ys) - min(ys) or 1.0)
-    # Panels take the shape of the map (within limits) so that equal-aspect drawings fill them.
+    # Panels take the shape of the map (within limits) so that equal-aspect drawings fill them;
+    # a wide map gets two wider columns at most, so that its sites stay apart.
     shape = (max(ys) - min(ys) + 2 * pad_y) / (max(xs) - min(xs) + 2 * pad_x) if in_km else 0.85
-    panel_w = 4.6
+    wide = shape < 0.7
+    ncols = min(len(order), 2 if wide else 3)
+    nrows = math.ceil(len(order) / ncols)
+    panel_w = 6.4 if wide else 4.6
     panel_h = min(max((panel_w - 0.9) * shape, 1.8), 6.0) + 1.0  # + title and axis label
     fig, axes = plt.subplots(
         nrows,
@@ -495,16 +571,6 @@ def topology_figure(
                 )
             else:
                 ax.plot(x, y, marker="s", markersize=8, markerfacecolor=INK, markeredgecolor=INK, zorder=4)
-            ax.annotate(
-                site_id,
-                (x, y),
-                xytext=(5, 5),
-                textcoords="offset points",
-                fontsize=7,
-                color=INK,
-                zorder=5,
-                bbox={"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.75},
-            )
         ax.set_xlim(min(xs) - pad_x, max(xs) + pad_x)
         ax.set_ylim(min(ys) - pad_y, max(ys) + pad_y)
         if in_km:
@@ -521,6 +587,10 @@ def topology_figure(
         _apply_look(ax)
     for k in range(len(order), nrows * ncols):
         axes[k // ncols][k % ncols].set_visible(False)
+    segments = [(pos[str(c["a"])], pos[str(c["b"])]) for c in cables]
+    fig.draw_without_rendering()  # settle the layout: labels are placed in display space
+    for k in range(len(order)):
+        _place_site_labels(axes[k // ncols][k % ncols], pos, segments)
     handles = [
         Line2D(
             [], [], marker="s", linestyle="none", markerfacecolor=INK, markeredgecolor=INK, label="datacenter"

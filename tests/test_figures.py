@@ -190,3 +190,31 @@ def test_blocking_figure_keeps_the_public_signature(tmp_path: Path) -> None:
     )
     assert path == tmp_path / "b.png" and path.stat().st_size > 10_000
     assert not plt.get_fignums(), "figures must be closed after saving"
+
+
+def _label_boxes(ax):
+    renderer = ax.figure.canvas.get_renderer()
+    return [t.get_window_extent(renderer) for t in ax.texts]
+
+
+def _overlapping(boxes):
+    return [(i, j) for i in range(len(boxes)) for j in range(i + 1, len(boxes)) if boxes[i].overlaps(boxes[j])]
+
+
+def test_site_labels_of_a_crowded_cluster_do_not_cover_each_other():
+    # Five sites in a row, closer together than a label is wide: labelled all to the upper
+    # right, every label covers its neighbour's; placed, none may.
+    pos = {f"site-{i}": (0.6 * i, 0.02 * i) for i in range(5)}
+    segments = [(pos[f"site-{i}"], pos[f"site-{i + 1}"]) for i in range(4)]
+    fig, ax = plt.subplots(figsize=(3.0, 2.0))
+    ax.set_xlim(-1.5, 4.5)
+    ax.set_ylim(-2.0, 2.0)
+    fig.draw_without_rendering()
+    naive = [ax.annotate(s, xy, xytext=(5, 5), textcoords="offset points", fontsize=7) for s, xy in pos.items()]
+    assert _overlapping(_label_boxes(ax)), "the case is not crowded enough to test anything"
+    for text in naive:
+        text.remove()
+    figures._place_site_labels(ax, pos, segments)
+    assert len(ax.texts) == 5
+    assert _overlapping(_label_boxes(ax)) == []
+    plt.close(fig)

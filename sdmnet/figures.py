@@ -587,10 +587,6 @@ def topology_figure(
         _apply_look(ax)
     for k in range(len(order), nrows * ncols):
         axes[k // ncols][k % ncols].set_visible(False)
-    segments = [(pos[str(c["a"])], pos[str(c["b"])]) for c in cables]
-    fig.draw_without_rendering()  # settle the layout: labels are placed in display space
-    for k in range(len(order)):
-        _place_site_labels(axes[k // ncols][k % ncols], pos, segments)
     handles = [
         Line2D(
             [], [], marker="s", linestyle="none", markerfacecolor=INK, markeredgecolor=INK, label="datacenter"
@@ -618,6 +614,12 @@ def topology_figure(
         )
         bar.set_label("mean utilisation (share of unit positions busy)")
         bar.ax.yaxis.set_major_formatter(matplotlib.ticker.PercentFormatter(1.0))
+    # Labels last, once legend and colour bar have taken their room: they are placed in
+    # display space, so the layout must be settled first.
+    segments = [(pos[str(c["a"])], pos[str(c["b"])]) for c in cables]
+    fig.draw_without_rendering()
+    for k in range(len(order)):
+        _place_site_labels(axes[k // ncols][k % ncols], pos, segments)
     return save_figure(fig, path)
 
 

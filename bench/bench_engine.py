@@ -137,16 +137,14 @@ def engine_rate(setup: EngineSetup, load: float, requests: int, repeats: int = 3
 
 # ---- the bare loop: heapq of departure times, an int bitmask, first fit, the engine's draws ----
 
-_BATCH = 4096
 
-
-def _gap_hold_batches(load: float, seed: int, replication: int):
-    """Batches of (gaps, holding times) from the engine's own streams for the same replication
-    (interarrival and holding streams; on one cable with one size the pair and size draws
-    change nothing), so every loop here meets the very same demands as the engine."""
-    ga, _pairs, _sizes, gh = (np.random.default_rng(s) for s in replication_seed(seed, replication).spawn(4))
-    while True:
-        yield (ga.standard_exponential(_BATCH) / load).tolist(), gh.standard_exponential(_BATCH).tolist()
+def _gaps_and_holds(load: float, seed: int, replication: int, total: int) -> tuple[list[float], list[float]]:
+    """Interarrival gaps and holding times of ``total`` arrivals from the engine's own streams for
+    the same replication (on one cable with one size the pair and size draws change nothing), so
+    every loop here meets the very same demands as the engine.  Drawn at once: a generator gives
+    the same numbers whether asked in one call or in the engine's batches."""
+    gap_rng, _pairs, _sizes, hold_rng = (np.random.default_rng(s) for s in replication_seed(seed, replication).spawn(4))
+    return (gap_rng.standard_exponential(total) / load).tolist(), hold_rng.standard_exponential(total).tolist()
 
 
 def bare_erlang_loop(channels: int, load: float, seed: int, replication: int, requests: int, warmup: int) -> int:
@@ -156,30 +154,23 @@ def bare_erlang_loop(channels: int, load: float, seed: int, replication: int, re
     ``gap[i]`` after arrival ``i - 1`` and holds for ``hold[i]``), so its count equals the
     engine's on the single-cable Erlang case.
     """
-    batches = _gap_hold_batches(load, seed, replication)
-    full = (1 << channels) - 1
-    free = full
+    total = warmup + requests
+    gaps, holds = _gaps_and_holds(load, seed, replication, total)
+    free = (1 << channels) - 1
     heap: list[tuple[float, int]] = []
     push, pop = heapq.heappush, heapq.heappop
-    total = warmup + requests
     blocked = 0
-    gaps, holds = next(batches)
     t = 0.0
-    i = 0
     for n in range(total):
-        if i == _BATCH:
-            gaps, holds = next(batches)
-            i = 0
-        t += gaps[i]
+        t += gaps[n]
         while heap and heap[0][0] <= t:
             free |= pop(heap)[1]
         if free:
             bit = free & -free
             free ^= bit
-            push(heap, (t + holds[i], bit))
+            push(heap, (t + holds[n], bit))
         elif n >= warmup:
             blocked += 1
-        i += 1
     return blocked
 
 
@@ -189,7 +180,8 @@ def simpy_floor_loop(channels: int, load: float, seed: int, replication: int, re
     import simpy
     from simpy.events import NORMAL
 
-    batches = _gap_hold_batches(load, seed, replication)
+    total = warmup + requests
+    gaps, holds = _gaps_and_holds(load, seed, replication, total)
     env = simpy.Environment()
     peek, step, schedule = env.peek, env.step, env.schedule
     free = [(1 << channels) - 1]
@@ -197,16 +189,10 @@ def simpy_floor_loop(channels: int, load: float, seed: int, replication: int, re
     def release(event: simpy.events.Event) -> None:
         free[0] |= event._value
 
-    total = warmup + requests
     blocked = 0
-    gaps, holds = next(batches)
     t = 0.0
-    i = 0
     for n in range(total):
-        if i == _BATCH:
-            gaps, holds = next(batches)
-            i = 0
-        t += gaps[i]
+        t += gaps[n]
         while peek() <= t:
             step()
         f = free[0]
@@ -216,10 +202,9 @@ def simpy_floor_loop(channels: int, load: float, seed: int, replication: int, re
             ev = simpy.events.Event(env)
             ev._ok, ev._value = True, bit
             ev.callbacks.append(release)
-            schedule(ev, NORMAL, t + holds[i] - env.now)
+            schedule(ev, NORMAL, t + holds[n] - env.now)
         elif n >= warmup:
             blocked += 1
-        i += 1
     return blocked
 
 
@@ -229,32 +214,26 @@ def same_allocation_loop(channels: int, load: float, seed: int, replication: int
     no SimPy and no statistics beyond the blocked count."""
     from sdmnet.allocation import UnitState
 
-    batches = _gap_hold_batches(load, seed, replication)
+    total = warmup + requests
+    gaps, holds = _gaps_and_holds(load, seed, replication, total)
     state = UnitState([1], [1], [channels], lane_change=True)
     take, give_back = state.take, state.give_back
     cables = (0,)
     heap: list = []
     push, pop = heapq.heappush, heapq.heappop
-    total = warmup + requests
     blocked = 0
-    gaps, holds = next(batches)
     t = 0.0
-    i = 0
     seq = 0
     for n in range(total):
-        if i == _BATCH:
-            gaps, holds = next(batches)
-            i = 0
-        t += gaps[i]
+        t += gaps[n]
         while heap and heap[0][0] <= t:
             give_back(pop(heap)[2])
         grant = take(cables, 1)
         if grant is not None:
             seq += 1
-            push(heap, (t + holds[i], seq, grant))
+            push(heap, (t + holds[n], seq, grant))
         elif n >= warmup:
             blocked += 1
-        i += 1
     return blocked
 
 

@@ -21,13 +21,13 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import bench_engine  # noqa: E402
 
 from sdmnet import engine  # noqa: E402
-from sdmnet.model import RunSpec  # noqa: E402
+from sdmnet.model import RunSpec, Scenario  # noqa: E402
 from sdmnet.sweep import plan_tasks, run_sweep  # noqa: E402
 
 NSFNET_LOAD = 640.0  # Erlang; about 1 % blocking with 40 channels (bench_engine.load_for_blocking)
 
 
-def sweep_scenario(requests: int):
+def sweep_scenario(requests: int) -> Scenario:
     """8 tasks: 2 loads near 1 % blocking x 4 replications of NSFNET, independent switching."""
     topo = bench_engine.nsfnet_topology()
     arch = bench_engine.INDEPENDENT
@@ -38,7 +38,7 @@ def sweep_scenario(requests: int):
     return sc
 
 
-def sweep_seconds(sc, jobs: int) -> float:
+def sweep_seconds(sc: Scenario, jobs: int) -> float:
     """Wall time of one sweep of ``sc`` with ``jobs`` local workers."""
     started = time.perf_counter()
     run_sweep(sc, None, jobs=jobs)

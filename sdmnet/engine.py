@@ -657,7 +657,6 @@ def simulate_replication(
             lanes_stamp += d_lanes * stamp
             site_stamp[a] += half * stamp
             site_stamp[b] += half * stamp
-    m = max(m, 0)
     measured = max(requests, 1)
     capacity = [state.capacity_units(i) for i in range(ncable)]
     cable_sum = [busy[h] * m + cable_stamp[h] for h in range(ncable)]

@@ -29,6 +29,8 @@ import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
 from matplotlib.colors import LinearSegmentedColormap, Normalize  # noqa: E402
 from matplotlib.lines import Line2D  # noqa: E402
+from matplotlib.path import Path as PolyPath  # noqa: E402
+from matplotlib.transforms import Bbox  # noqa: E402
 
 __all__ = [
     "STYLE_CYCLE",
@@ -409,7 +411,7 @@ _LABEL_SPOTS = (
 )
 
 
-def _overlap(a: Any, b: Any) -> float:
+def _overlap(a: Bbox, b: Bbox) -> float:
     """Area shared by two display-space boxes."""
     w = min(a.x1, b.x1) - max(a.x0, b.x0)
     h = min(a.y1, b.y1) - max(a.y0, b.y0)
@@ -423,9 +425,6 @@ def _place_site_labels(ax: plt.Axes, pos: dict[str, tuple[float, float]], segmen
     already placed and with site markers, the area it sticks out of the axes, and a share of
     its own area for every cable it crosses.  The first spot in :data:`_LABEL_SPOTS` wins ties.
     """
-    from matplotlib.path import Path as PolyPath
-    from matplotlib.transforms import Bbox
-
     renderer = ax.figure.canvas.get_renderer()
     to_display = ax.transData.transform
     points = {s: to_display(xy) for s, xy in pos.items()}
@@ -439,7 +438,7 @@ def _place_site_labels(ax: plt.Axes, pos: dict[str, tuple[float, float]], segmen
         x, y = points[site]
         return sum(math.hypot(x - u, y - v) < 60 * scale for u, v in points.values())
 
-    placed: list = []
+    placed: list[Bbox] = []
     for site in sorted(pos, key=lambda s: (-crowding(s), s)):
         label = ax.annotate(
             site,

@@ -595,9 +595,6 @@ def _raw_topology_from_toml(doc: _Doc, data: Mapping[str, Any]) -> _RawTopology:
     )
 
 
-_GRAPHML_NS = "{http://graphml.graphdrawing.org/xmlns}"
-
-
 def _local_name(tag: Any) -> str:
     """``edge`` of ``{namespace}edge`` (comments and processing instructions have no str tag)."""
     return tag.rpartition("}")[2] if isinstance(tag, str) else ""

@@ -89,11 +89,6 @@ class FiberType:
     crosstalk_db_per_km: float | None = None
     mdl_db_per_sqrt_km: float | None = None
 
-    @property
-    def coupled_groups(self) -> int:
-        """Number of coupled groups per fiber (``cores`` for weak coupling)."""
-        return self.cores // self.coupled_group
-
 
 @dataclass(frozen=True)
 class Site:
@@ -146,10 +141,6 @@ class Topology:
     def datacenters(self) -> tuple[Site, ...]:
         """Sites that originate and terminate traffic, in file order."""
         return tuple(s for s in self.sites if s.role == "datacenter")
-
-    def cable_index(self) -> dict[frozenset[str], int]:
-        """Map from the unordered site pair to the cable's index in ``cables``."""
-        return {frozenset((c.a, c.b)): i for i, c in enumerate(self.cables)}
 
     def graph(self) -> nx.Graph:
         """An undirected networkx graph: node per site, edge per cable.

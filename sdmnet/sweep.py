@@ -20,7 +20,6 @@ import json
 import os
 import signal
 import sys
-import tempfile
 import time
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import asdict, dataclass
@@ -137,14 +136,16 @@ class TaskStore:
         """Write one finished task atomically."""
         self.folder.mkdir(parents=True, exist_ok=True)
         payload = {"fingerprint": self.fingerprint, "task": asdict(task), "record": record.to_dict()}
-        fd, tmp = tempfile.mkstemp(dir=self.folder, prefix=".tmp-", suffix=".json")
+        # The temporary's name is known before it exists (one writer per task), so an interrupt
+        # at any point, even while the file is being created, leaves nothing behind.
+        tmp = self.folder / f".tmp-{task.key}.json"
         try:
-            with os.fdopen(fd, "w") as fh:
+            with open(tmp, "w") as fh:
                 json.dump(payload, fh)
             os.replace(tmp, self.path(task))
         except BaseException:
             # A failed or interrupted write leaves neither a partial task file nor its temporary.
-            Path(tmp).unlink(missing_ok=True)
+            tmp.unlink(missing_ok=True)
             raise
 
     def clear(self) -> None:

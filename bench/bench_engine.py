@@ -22,8 +22,7 @@ from pathlib import Path
 
 import numpy as np
 
-from sdmnet.engine import EngineSetup, prepare, replication_seed, simulate_replication
-from sdmnet.model import (
+from sdmnet.inputs.model import (
     Architecture,
     Cable,
     FiberType,
@@ -34,7 +33,8 @@ from sdmnet.model import (
     TrafficSpec,
     TransceiverSpec,
 )
-from sdmnet.routing import Route, datacenter_pairs, k_shortest_routes
+from sdmnet.network.routing import Route, datacenter_pairs, k_shortest_routes
+from sdmnet.sim.engine import EngineSetup, prepare, replication_seed, simulate_replication
 
 ROOT = Path(__file__).resolve().parent.parent
 NSFNET_FILE = ROOT / "topologies" / "nsfnet.toml"
@@ -63,7 +63,7 @@ def nsfnet_topology(channels: int = 40) -> Topology:
     """
     fiber = _weak_7core(channels)
     try:
-        from sdmnet.loaders import load_topology
+        from sdmnet.inputs.loaders import load_topology
 
         topo = load_topology(NSFNET_FILE)
     except (ImportError, OSError, ValueError):
@@ -210,9 +210,9 @@ def simpy_floor_loop(channels: int, load: float, seed: int, replication: int, re
 
 def same_allocation_loop(channels: int, load: float, seed: int, replication: int, requests: int, warmup: int) -> int:
     """A bare heapq loop doing the engine's own allocation: the same first-fit state object
-    (:class:`sdmnet.allocation.UnitState`, take / give_back with grants) and the same draws, but
+    (:class:`sdmnet.sim.allocation.UnitState`, take / give_back with grants) and the same draws, but
     no SimPy and no statistics beyond the blocked count."""
-    from sdmnet.allocation import UnitState
+    from sdmnet.sim.allocation import UnitState
 
     total = warmup + requests
     gaps, holds = _gaps_and_holds(load, seed, replication, total)
@@ -286,7 +286,7 @@ _COUNT_CHILD = """
 import sys
 sys.path.insert(0, {bench!r})
 from bench_engine import erlang_setup, same_allocation_loop
-from sdmnet.engine import simulate_replication
+from sdmnet.sim.engine import simulate_replication
 setup = erlang_setup({channels}, {load})
 if {engine}:
     simulate_replication(setup, {load}, 5, 0, {requests}, {requests} // 10)
@@ -316,7 +316,7 @@ _MEMORY_CHILD = """
 import json, resource, sys, tracemalloc
 sys.path.insert(0, {bench!r})
 from bench_engine import nsfnet_setup
-from sdmnet.engine import simulate_replication
+from sdmnet.sim.engine import simulate_replication
 setup = nsfnet_setup({load})
 simulate_replication(setup, {load}, 3, 0, 2000, 0)  # warm caches and imports
 before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss

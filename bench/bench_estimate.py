@@ -13,11 +13,11 @@ import sys
 import time
 from pathlib import Path
 
-from sdmnet.architectures import cable_geometries
-from sdmnet.estimate import estimate_architecture
-from sdmnet.loaders import load_scenario
-from sdmnet.model import Architecture, Scenario
-from sdmnet.pathtable import feasible_routes
+from sdmnet.analysis.estimate import estimate_architecture
+from sdmnet.inputs.loaders import load_scenario
+from sdmnet.inputs.model import Architecture, Scenario
+from sdmnet.network.architectures import cable_geometries
+from sdmnet.optics.pathtable import feasible_routes
 
 ROOT = Path(__file__).resolve().parent.parent
 SCENARIO = ROOT / "scenarios" / "nsfnet.toml"

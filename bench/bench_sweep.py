@@ -2,7 +2,7 @@
 
 Run: ``.venv/bin/python bench/bench_sweep.py`` (``--requests N`` per task, ``--repeats R``).  The tasks are NSFNET
 replications (7-core weakly coupled fiber, independent switching, k = 3, near 1 % blocking), run
-through :func:`sdmnet.sweep.run_sweep` with ``jobs=1`` and ``jobs=2``.  Prints figures only.
+through :func:`sdmnet.sim.sweep.run_sweep` with ``jobs=1`` and ``jobs=2``.  Prints figures only.
 Routes come from the k shortest paths without physics (the bench replaces the engine's default
 route finder in this process; forked workers inherit it).
 """
@@ -20,9 +20,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 import bench_engine  # noqa: E402
 
-from sdmnet import engine  # noqa: E402
-from sdmnet.model import RunSpec, Scenario  # noqa: E402
-from sdmnet.sweep import plan_tasks, run_sweep  # noqa: E402
+from sdmnet.inputs.model import RunSpec, Scenario  # noqa: E402
+from sdmnet.sim import engine  # noqa: E402
+from sdmnet.sim.sweep import plan_tasks, run_sweep  # noqa: E402
 
 NSFNET_LOAD = 640.0  # Erlang; about 1 % blocking with 40 channels (bench_engine.load_for_blocking)
 

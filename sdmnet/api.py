@@ -1,8 +1,8 @@
 """The public Python API: one function per verb, each writing its files into an output folder.
 
 The CLI only parses arguments and calls these.  Data flows one way:
-files -> model (:mod:`sdmnet.loaders`) -> engine (:mod:`sdmnet.engine`, run by
-:mod:`sdmnet.sweep`) -> statistics (:mod:`sdmnet.stats`) -> tables (:mod:`sdmnet.tables`)
+files -> model (:mod:`sdmnet.inputs.loaders`) -> engine (:mod:`sdmnet.sim.engine`, run by
+:mod:`sdmnet.sim.sweep`) -> statistics (:mod:`sdmnet.sim.stats`) -> tables (:mod:`sdmnet.output.tables`)
 -> figures and report.
 """
 
@@ -14,17 +14,14 @@ from pathlib import Path
 
 import pandas as pd
 
-from .compare import attach_estimate
-from .engine import ReplicationRecord, prepare
+from .analysis.compare import attach_estimate
+from .analysis.estimate import estimate as estimate_scenario
+from .equipment.resources import InstalledResources, installed_resources, module_figures
 from .errors import InputError
-from .estimate import estimate as estimate_scenario
-from .figures import blocking_figure
-from .manifest import ensure_out_dir, run_manifest, software_versions
-from .model import Scenario
-from .resources import InstalledResources, installed_resources, module_figures
-from .stats import PointSummary, summarize_point
-from .sweep import Progress, TaskStore, plan_tasks, run_sweep, scenario_fingerprint
-from .tables import (
+from .inputs.model import Scenario
+from .output.figures import blocking_figure
+from .output.manifest import ensure_out_dir, run_manifest, software_versions
+from .output.tables import (
     add_module_columns,
     cable_table,
     class_table,
@@ -34,6 +31,9 @@ from .tables import (
     write_json,
     write_table,
 )
+from .sim.engine import ReplicationRecord, prepare
+from .sim.stats import PointSummary, summarize_point
+from .sim.sweep import Progress, TaskStore, plan_tasks, run_sweep, scenario_fingerprint
 
 __all__ = [
     "SimulationResult",
@@ -98,7 +98,7 @@ def simulate(
     Parameters
     ----------
     scenario : Scenario
-        From :func:`sdmnet.loaders.load_scenario`.
+        From :func:`sdmnet.inputs.loaders.load_scenario`.
     out_dir : path
         Output folder (created).
     jobs : int
@@ -170,7 +170,7 @@ def estimate(scenario: Scenario, out_dir: Path | str) -> tuple[pd.DataFrame, pd.
 
 def paths(scenario: Scenario, out_dir: Path | str) -> pd.DataFrame:
     """Candidate paths with their physics and feasibility: writes ``paths.csv``."""
-    from .pathtable import path_table
+    from .optics.pathtable import path_table
 
     started = time.perf_counter()
     out = ensure_out_dir(out_dir)
@@ -182,16 +182,16 @@ def paths(scenario: Scenario, out_dir: Path | str) -> pd.DataFrame:
 
 def plan(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True, cable_cuts: bool = False):
     """Fewest fiber pairs per cable meeting the target blocking: writes ``plan.csv``, its
-    totals, and run.json (:func:`sdmnet.planning.run_plan`)."""
-    from .planning import run_plan
+    totals, and run.json (:func:`sdmnet.planning.dimensioning.run_plan`)."""
+    from .planning.dimensioning import run_plan
 
     return run_plan(scenario, out_dir, jobs=jobs, progress=progress, cable_cuts=cable_cuts)
 
 
 def forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True):
     """The plan year by year under growth: writes ``forecast.csv``, figures and run.json
-    (:func:`sdmnet.forecasting.run_forecast`)."""
-    from .forecasting import run_forecast
+    (:func:`sdmnet.planning.forecasting.run_forecast`)."""
+    from .planning.forecasting import run_forecast
 
     return run_forecast(scenario, out_dir, jobs=jobs, progress=progress)
 
@@ -204,7 +204,7 @@ def report(folder: Path | str, out_dir: Path | str | None = None) -> Path:
     """
     import shutil
 
-    from .report import write_report
+    from .output.report import write_report
 
     path = Path(folder)
     if not path.is_dir():

@@ -17,8 +17,6 @@ from .errors import InputError, RunInterrupted
 __all__ = ["main", "build_parser"]
 
 EXIT_OK, EXIT_INPUT, EXIT_INTERRUPTED = 0, 2, 130
-REPO_ROOT = Path(__file__).resolve().parent.parent
-DEMO_SCENARIO = REPO_ROOT / "scenarios" / "demo.toml"
 
 
 def _positive_int(text: str) -> int:
@@ -49,7 +47,7 @@ def _default_out(verb: str, source: str | None) -> Path:
 
 
 def _load_scenario(args: argparse.Namespace):
-    from .loaders import load_scenario
+    from .inputs.loaders import load_scenario
 
     overrides = {}
     if getattr(args, "seed", None) is not None:
@@ -66,13 +64,13 @@ def _out(args: argparse.Namespace, verb: str) -> Path:
 
 
 def cmd_check(args: argparse.Namespace) -> int:
-    from .describe import describe
-    from .loaders import load_any
+    from .inputs.describe import describe
+    from .inputs.loaders import load_any
 
     text = describe(load_any(Path(args.file)))
     print(text)
     if args.out:  # only on request: checking a file should not litter results/
-        from .manifest import ensure_out_dir
+        from .output.manifest import ensure_out_dir
 
         (ensure_out_dir(args.out) / "check.txt").write_text(text + "\n")
     return EXIT_OK
@@ -164,11 +162,16 @@ def _print_summary(summary) -> None:
 
 def cmd_demo(args: argparse.Namespace) -> int:
     from . import api
-    from .loaders import load_scenario
+    from .inputs.bundled import bundled_scenario
+    from .inputs.loaders import load_scenario
 
-    if not DEMO_SCENARIO.exists():
-        raise InputError(DEMO_SCENARIO, "demo", "the bundled demo scenario is missing from this installation")
-    scenario = load_scenario(DEMO_SCENARIO)
+    try:
+        path = bundled_scenario("demo")
+    except FileNotFoundError as exc:
+        raise InputError(exc.args[0], "demo", "the bundled data is missing from this installation") from None
+    if not path.exists():
+        raise InputError(path, "demo", "the bundled demo scenario is missing from this installation")
+    scenario = load_scenario(path)
     out = Path(args.out) if args.out else Path("results") / "demo"
     result = api.demo(scenario, out, jobs=args.jobs, progress=not args.quiet)
     _print_summary(result.summary)

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from sdmnet.model import (
+from sdmnet.inputs.model import (
     Architecture,
     Cable,
     FiberType,
@@ -13,7 +13,7 @@ from sdmnet.model import (
     TrafficSpec,
     TransceiverSpec,
 )
-from sdmnet.routing import Route, datacenter_pairs, k_shortest_routes
+from sdmnet.network.routing import Route, datacenter_pairs, k_shortest_routes
 
 
 def fiber_type(name="f", cores=1, coupling="weak", coupled_group=None, channels=10) -> FiberType:

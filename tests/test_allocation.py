@@ -3,7 +3,7 @@
 The first-fit order (lowest channel, then lowest core group, then lowest fiber) is the model's
 rule (docs/model.md, section 3); first fit itself is common practice in spectrum assignment, no source.
 Positions in grants are ``fiber * groups + group`` and bits are ``1 << channel`` (the documented
-grant format of sdmnet.allocation).
+grant format of sdmnet.sim.allocation).
 """
 
 from __future__ import annotations
@@ -12,7 +12,7 @@ import random
 
 import pytest
 
-from sdmnet.allocation import FiberState, UnitState
+from sdmnet.sim.allocation import FiberState, UnitState
 
 
 def _units(grant):

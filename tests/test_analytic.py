@@ -11,7 +11,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from sdmnet.analytic import (
+from sdmnet.analysis.analytic import (
     Stream,
     erlang_b,
     erlang_b_load,
@@ -23,7 +23,7 @@ from sdmnet.analytic import (
 )
 
 # --------------------------------------------------------------------------------------------
-# Independent references (no code from sdmnet.analytic)
+# Independent references (no code from sdmnet.analysis.analytic)
 
 
 def erlang_b_exact(n: int, a: Fraction) -> Fraction:

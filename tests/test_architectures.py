@@ -5,9 +5,9 @@ from __future__ import annotations
 import pytest
 from builders import fiber_type, scenario, single_cable
 
-from sdmnet.architectures import cable_geometries, unit_geometry, units_needed, why_not_allowed
 from sdmnet.errors import ConfigurationError
-from sdmnet.model import Architecture
+from sdmnet.inputs.model import Architecture
+from sdmnet.network.architectures import cable_geometries, unit_geometry, units_needed, why_not_allowed
 
 WEAK7 = fiber_type("w7", cores=7, channels=16)
 RC8 = fiber_type("rc8", cores=8, coupling="random", coupled_group=4, channels=16)

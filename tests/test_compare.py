@@ -5,7 +5,7 @@ from __future__ import annotations
 from builders import chain, fiber_type, scenario, single_cable
 
 from sdmnet import api
-from sdmnet.model import Architecture
+from sdmnet.inputs.model import Architecture
 
 
 def erlang_b(servers: int, load: float) -> float:

@@ -1,4 +1,4 @@
-"""Tests of sdmnet.describe: the summary names everything the fixture files hold.
+"""Tests of sdmnet.inputs.describe: the summary names everything the fixture files hold.
 
 Expected units are worked out by hand from the switching table of docs/model.md, section 2
 (unit = g cores x 1 channel, capacity g x lane rate, ports per fiber = cores / g; fiber
@@ -11,8 +11,8 @@ from pathlib import Path
 
 import pytest
 
-from sdmnet.describe import describe, fiber_pair_km
-from sdmnet.loaders import load_scenario, load_topology
+from sdmnet.inputs.describe import describe, fiber_pair_km
+from sdmnet.inputs.loaders import load_scenario, load_topology
 
 FIXTURES = Path(__file__).resolve().parent / "fixtures"
 

@@ -16,10 +16,10 @@ import numpy as np
 import pytest
 from builders import chain, fiber_type, scenario, shortest_routes, single_cable, weighted_datacenter_chain
 
-from sdmnet.engine import _BATCH, _arrivals, prepare, replication_seed, simulate_replication
 from sdmnet.errors import ConfigurationError
-from sdmnet.model import Architecture
-from sdmnet.stats import ratio_interval
+from sdmnet.inputs.model import Architecture
+from sdmnet.sim.engine import _BATCH, _arrivals, prepare, replication_seed, simulate_replication
+from sdmnet.sim.stats import ratio_interval
 
 
 def erlang_b(servers: int, load: float) -> float:

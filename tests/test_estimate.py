@@ -10,10 +10,10 @@ import numpy as np
 import pytest
 from builders import chain, fiber_type, scenario, shortest_routes, single_cable
 
-from sdmnet.analytic import erlang_b, kaufman_roberts, reduced_load_fixed_point
+from sdmnet.analysis.analytic import erlang_b, kaufman_roberts, reduced_load_fixed_point
+from sdmnet.analysis.estimate import NETWORK_COLUMNS, PAIR_COLUMNS, estimate
 from sdmnet.errors import ConfigurationError
-from sdmnet.estimate import NETWORK_COLUMNS, PAIR_COLUMNS, estimate
-from sdmnet.model import Architecture, Cable, Site, Topology
+from sdmnet.inputs.model import Architecture, Cable, Site, Topology
 
 INDEPENDENT = Architecture("ind", "independent")
 

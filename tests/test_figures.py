@@ -10,7 +10,7 @@ import matplotlib.pyplot as plt
 import pandas as pd
 import pytest
 
-from sdmnet import figures
+from sdmnet.output import figures
 
 
 def png_chunks(data: bytes) -> list[tuple[bytes, bytes]]:

@@ -8,9 +8,9 @@ import pandas as pd
 import pytest
 from builders import fiber_type, scenario, weighted_datacenter_chain
 
-from sdmnet.forecasting import run_forecast, year_scenario
-from sdmnet.model import Architecture, ForecastSpec, PlanSpec
-from sdmnet.planning import run_plan
+from sdmnet.inputs.model import Architecture, ForecastSpec, PlanSpec
+from sdmnet.planning.dimensioning import run_plan
+from sdmnet.planning.forecasting import run_forecast, year_scenario
 
 TARGET = 0.01
 

@@ -8,8 +8,8 @@ from builders import chain, fiber_type, scenario, shortest_routes
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from sdmnet.engine import prepare, simulate_replication
-from sdmnet.model import Architecture
+from sdmnet.inputs.model import Architecture
+from sdmnet.sim.engine import prepare, simulate_replication
 
 CORES_AND_ARCHS = st.sampled_from(
     [

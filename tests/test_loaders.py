@@ -1,4 +1,4 @@
-"""Tests of sdmnet.loaders: every bad input gives one exact ``FILE: WHERE: what`` line.
+"""Tests of sdmnet.inputs.loaders: every bad input gives one exact ``FILE: WHERE: what`` line.
 
 The expected messages below are the specification of what a user sees after ``error: ``.
 The inputs are invented; the rules they break are those of the file contract (docs/model.md
@@ -21,8 +21,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from sdmnet.errors import ConfigurationError, InputError
-from sdmnet.loaders import load_any, load_scenario, load_topology
-from sdmnet.model import Scenario, Topology
+from sdmnet.inputs.loaders import load_any, load_scenario, load_topology
+from sdmnet.inputs.model import Scenario, Topology
 
 try:
     import tomllib

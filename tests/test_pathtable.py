@@ -1,4 +1,4 @@
-"""Tests of sdmnet.pathtable: the paths table and the feasible routes handed to the engine."""
+"""Tests of sdmnet.optics.pathtable: the paths table and the feasible routes handed to the engine."""
 
 from __future__ import annotations
 
@@ -9,9 +9,19 @@ import time
 import pandas as pd
 import pytest
 
-from sdmnet.model import Architecture, Cable, FiberType, RunSpec, Scenario, Site, Topology, TrafficSpec, TransceiverSpec
-from sdmnet.pathtable import PATH_COLUMNS, feasible_routes, path_table
-from sdmnet.routing import datacenter_pairs
+from sdmnet.inputs.model import (
+    Architecture,
+    Cable,
+    FiberType,
+    RunSpec,
+    Scenario,
+    Site,
+    Topology,
+    TrafficSpec,
+    TransceiverSpec,
+)
+from sdmnet.network.routing import datacenter_pairs
+from sdmnet.optics.pathtable import PATH_COLUMNS, feasible_routes, path_table
 
 WEAK7 = FiberType("weak7", 7, "weak", 1, 64, 0.2, crosstalk_db_per_km=-60.0)
 CC4 = FiberType("cc4", 4, "random", 4, 64, 0.2, gd_spread_ps_per_sqrt_km=6.1, mdl_db_per_sqrt_km=0.05)

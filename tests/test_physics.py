@@ -1,4 +1,4 @@
-"""Tests of sdmnet.physics and the sourced defaults in sdmnet.defaults."""
+"""Tests of sdmnet.optics.physics and the sourced defaults in sdmnet.optics.defaults."""
 
 from __future__ import annotations
 
@@ -6,9 +6,9 @@ import math
 
 import pytest
 
-from sdmnet import defaults
-from sdmnet.model import Cable, FiberType, TransceiverSpec
-from sdmnet.physics import (
+from sdmnet.inputs.model import Cable, FiberType, TransceiverSpec
+from sdmnet.optics import defaults
+from sdmnet.optics.physics import (
     evaluate_path,
     mimo_cmul_per_bit,
     mimo_cmul_per_symbol,

@@ -13,15 +13,15 @@ import pandas as pd
 import pytest
 from builders import fiber_type, scenario, single_cable, weighted_datacenter_chain
 
-from sdmnet.model import Architecture, Cable, PlanSpec, Site, Topology
-from sdmnet.planning import (
+from sdmnet.inputs.model import Architecture, Cable, PlanSpec, Site, Topology
+from sdmnet.planning.dimensioning import (
     analytic_first_guess,
     congestion_from_utilisation,
     plan_architecture,
     run_plan,
 )
-from sdmnet.stats import summarize_point
-from sdmnet.sweep import run_sweep
+from sdmnet.sim.stats import summarize_point
+from sdmnet.sim.sweep import run_sweep
 
 TARGET = 0.01
 

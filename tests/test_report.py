@@ -17,10 +17,11 @@ import matplotlib.image as mpimg
 import pandas as pd
 import pytest
 
-from sdmnet import api, engine
+from sdmnet import api
 from sdmnet.errors import InputError
-from sdmnet.model import Architecture, Cable, Site, Topology
-from sdmnet.report import CAUTIONS, forecast_totals, write_report
+from sdmnet.inputs.model import Architecture, Cable, Site, Topology
+from sdmnet.output.report import CAUTIONS, forecast_totals, write_report
+from sdmnet.sim import engine
 
 CHROMIUM = Path("/usr/bin/chromium")
 FIGURES_OF_A_SIMULATION = {"blocking.png", "bandwidth_blocking.png", "resources.png", "topology.png"}
@@ -192,7 +193,7 @@ def test_report_regenerates_byte_identical_in_another_process(
 ) -> None:
     there = copy_of(simulated, tmp_path, "there")
     add_other_verbs(there)
-    code = "import sys; from sdmnet.report import write_report; write_report(sys.argv[1])"
+    code = "import sys; from sdmnet.output.report import write_report; write_report(sys.argv[1])"
     subprocess.run([sys.executable, "-c", code, str(there)], check=True, timeout=300)
     mine, theirs = snapshot(reported), snapshot(there)
     assert mine.keys() == theirs.keys()

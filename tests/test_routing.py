@@ -5,8 +5,8 @@ from __future__ import annotations
 import networkx as nx
 from builders import fiber_type
 
-from sdmnet.model import Cable, Site, Topology
-from sdmnet.routing import datacenter_pairs, k_shortest_routes
+from sdmnet.inputs.model import Cable, Site, Topology
+from sdmnet.network.routing import datacenter_pairs, k_shortest_routes
 
 
 def _mesh() -> Topology:

@@ -6,7 +6,7 @@ import math
 
 import pytest
 
-from sdmnet.stats import ratio_interval, t_interval
+from sdmnet.sim.stats import ratio_interval, t_interval
 
 
 def test_t_interval_matches_a_hand_computed_case():

@@ -14,10 +14,10 @@ import pytest
 from builders import chain, fiber_type, scenario
 
 from sdmnet import api
-from sdmnet.engine import ReplicationRecord
 from sdmnet.errors import InputError
-from sdmnet.model import Architecture
-from sdmnet.sweep import Task, TaskStore, plan_tasks, run_sweep, scenario_fingerprint
+from sdmnet.inputs.model import Architecture
+from sdmnet.sim.engine import ReplicationRecord
+from sdmnet.sim.sweep import Task, TaskStore, plan_tasks, run_sweep, scenario_fingerprint
 
 
 def _scenario(seed: int = 7):

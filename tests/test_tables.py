@@ -8,7 +8,7 @@ import stat
 import pandas as pd
 import pytest
 
-from sdmnet.tables import write_json, write_table
+from sdmnet.output.tables import write_json, write_table
 
 
 def _frame() -> pd.DataFrame:

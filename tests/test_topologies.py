@@ -1,7 +1,7 @@
 """The bundled topology and scenario files: shape, provenance of lengths, and consistency.
 
 These tests read the files with :mod:`tomllib` and networkx only, so they hold whatever the
-loaders do; where :func:`sdmnet.loaders.load_topology` exists it is checked to accept every
+loaders do; where :func:`sdmnet.inputs.loaders.load_topology` exists it is checked to accept every
 bundled file too.
 """
 
@@ -212,7 +212,7 @@ def test_nsfnet_graphml_holds_the_same_graph(nsfnet: dict[str, Any]) -> None:
 
 def test_nsfnet_graphml_is_what_the_script_writes_now(nsfnet: dict[str, Any]) -> None:
     # A stale GraphML (TOML edited, script not rerun) fails here.
-    spec = importlib.util.spec_from_file_location("make_graphml", TOPOLOGIES / "make_graphml.py")
+    spec = importlib.util.spec_from_file_location("make_graphml", ROOT / "tools" / "make_graphml.py")
     assert spec is not None and spec.loader is not None
     module = importlib.util.module_from_spec(spec)
     spec.loader.exec_module(module)
@@ -282,7 +282,7 @@ def test_demo_fiber_types_allow_the_compared_granularities(demo: dict[str, Any])
 
 @pytest.mark.parametrize("name", ["nsfnet.toml", "demo-metro.toml"])
 def test_fiber_figures_are_the_sourced_defaults(name: str) -> None:
-    defaults = pytest.importorskip("sdmnet.defaults")
+    defaults = pytest.importorskip("sdmnet.optics.defaults")
     types = read_toml(TOPOLOGIES / name)["fiber_types"]
     weak = types["mcf7-weak"]
     assert weak["attenuation_db_per_km"] == defaults.ATTENUATION_G652D_DB_PER_KM
@@ -364,9 +364,9 @@ def test_single_cable_comment_states_erlang_b_for_its_loads() -> None:
 
 @pytest.mark.parametrize("path", [*TOPOLOGY_FILES, TOPOLOGIES / "nsfnet.graphml"], ids=lambda p: p.name)
 def test_loader_reads_every_topology(path: Path) -> None:
-    loaders = pytest.importorskip("sdmnet.loaders")
+    loaders = pytest.importorskip("sdmnet.inputs.loaders")
     if not hasattr(loaders, "load_topology"):
-        pytest.skip("sdmnet.loaders.load_topology is not written yet")
+        pytest.skip("sdmnet.inputs.loaders.load_topology is not written yet")
     topology = loaders.load_topology(path)
     data = read_toml(path.with_suffix(".toml"))
     assert [s.id for s in topology.sites] == [s["id"] for s in data["sites"]]
@@ -377,9 +377,9 @@ def test_loader_reads_every_topology(path: Path) -> None:
 
 
 def test_loader_reads_nsfnet_graphml_as_the_toml() -> None:
-    loaders = pytest.importorskip("sdmnet.loaders")
+    loaders = pytest.importorskip("sdmnet.inputs.loaders")
     if not hasattr(loaders, "load_topology"):
-        pytest.skip("sdmnet.loaders.load_topology is not written yet")
+        pytest.skip("sdmnet.inputs.loaders.load_topology is not written yet")
     from_toml = loaders.load_topology(TOPOLOGIES / "nsfnet.toml")
     from_graphml = loaders.load_topology(TOPOLOGIES / "nsfnet.graphml")
     assert (from_graphml.name, from_graphml.fiber_types) == (from_toml.name, from_toml.fiber_types)
@@ -388,9 +388,9 @@ def test_loader_reads_nsfnet_graphml_as_the_toml() -> None:
 
 @pytest.mark.parametrize("path", SCENARIO_FILES, ids=lambda p: p.name)
 def test_loader_reads_every_scenario(path: Path) -> None:
-    loaders = pytest.importorskip("sdmnet.loaders")
+    loaders = pytest.importorskip("sdmnet.inputs.loaders")
     if not hasattr(loaders, "load_scenario"):
-        pytest.skip("sdmnet.loaders.load_scenario is not written yet")
+        pytest.skip("sdmnet.inputs.loaders.load_scenario is not written yet")
     scenario = loaders.load_scenario(path)
     data = read_toml(path)
     assert [a.name for a in scenario.architectures] == [a["name"] for a in data["architectures"]]

@@ -5,8 +5,8 @@ from __future__ import annotations
 import pytest
 from builders import fiber_type
 
-from sdmnet.model import Cable, Site, Topology, TrafficSpec
-from sdmnet.traffic import pair_loads, pair_weights, size_classes
+from sdmnet.inputs.model import Cable, Site, Topology, TrafficSpec
+from sdmnet.network.traffic import pair_loads, pair_weights, size_classes
 
 
 def _triangle(weights=(1.0, 2.0, 3.0)) -> Topology:

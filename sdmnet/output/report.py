@@ -21,9 +21,9 @@ from typing import Any
 
 import pandas as pd
 
+from ..errors import InputError
+from ..inputs.model import Scenario
 from . import figures
-from .errors import InputError
-from .model import Scenario
 from .tables import SUMMARY_COLUMNS, write_text
 
 __all__ = [

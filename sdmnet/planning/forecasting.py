@@ -1,6 +1,6 @@
 """Growth: the plan year by year as the demand grows, never removing a fiber once planned.
 
-Year 0 is the plan (:func:`sdmnet.planning.plan_architecture`).  Year ``y`` scales every load
+Year 0 is the plan (:func:`sdmnet.planning.dimensioning.plan_architecture`).  Year ``y`` scales every load
 point by ``ForecastSpec.factor(y)`` (relative to year 0), starts from year ``y - 1``'s fibers
 and dimensions again with those fibers as the floor: it grows until the target holds at the
 scaled dimensioning load, then trims only what it added this year.  Each year is simulated
@@ -20,9 +20,10 @@ from pathlib import Path
 
 import pandas as pd
 
-from .figures import forecast_figure
-from .model import ForecastSpec, Scenario
-from .planning import (
+from ..inputs.model import ForecastSpec, Scenario
+from ..output.figures import forecast_figure
+from ..output.tables import write_table
+from .dimensioning import (
     DEFAULT_MAX_CANDIDATES,
     ArchitecturePlan,
     candidate_rows,
@@ -31,7 +32,6 @@ from .planning import (
     start_run,
     totals_row,
 )
-from .tables import write_table
 
 __all__ = [
     "FORECAST_COLUMNS",
@@ -224,7 +224,7 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
     Parameters
     ----------
     scenario : Scenario
-        From :func:`sdmnet.loaders.load_scenario`; ``[forecast]`` and ``[plan]`` defaults apply
+        From :func:`sdmnet.inputs.loaders.load_scenario`; ``[forecast]`` and ``[plan]`` defaults apply
         when absent.
     out_dir : path
         Output folder (created).

@@ -1,6 +1,6 @@
 """Plain, typed data classes for everything sdmnet reads.
 
-The loaders (:mod:`sdmnet.loaders`) turn TOML / GraphML / CSV files into these objects and
+The loaders (:mod:`sdmnet.inputs.loaders`) turn TOML / GraphML / CSV files into these objects and
 validate them; every later stage (routing, physics, engine, statistics, reports) reads them and
 never touches files.  All classes are frozen: a scenario is a value.
 
@@ -16,7 +16,7 @@ from typing import Literal
 
 import networkx as nx
 
-from . import defaults
+from ..optics import defaults
 
 __all__ = [
     "COUPLINGS",
@@ -203,8 +203,8 @@ class TrafficSpec:
 class TransceiverSpec:
     """A coherent transceiver class: lane rate, DSP and the physical limits of a path.
 
-    Defaults and their sources live in :mod:`sdmnet.defaults`; what each figure does is in
-    :mod:`sdmnet.physics` and ``docs/physics.md``.
+    Defaults and their sources live in :mod:`sdmnet.optics.defaults`; what each figure does is in
+    :mod:`sdmnet.optics.physics` and ``docs/physics.md``.
 
     Attributes
     ----------
@@ -228,7 +228,7 @@ class TransceiverSpec:
         Electrical power of a single-lane module (optics and its own 2x2 DSP).
     mimo_pj_per_cmul : float
         Energy of one complex multiplication of the MIMO equalizer, in pJ
-        (see :func:`sdmnet.physics.module_power_w`).
+        (see :func:`sdmnet.optics.physics.module_power_w`).
     switch_insertion_loss_db : float
         Loss of one pass through a switch at an intermediate site.
     connector_loss_db : float

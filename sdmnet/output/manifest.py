@@ -9,11 +9,11 @@ from dataclasses import asdict
 from importlib import metadata
 from pathlib import Path
 
-from . import __version__
-from .engine import EngineSetup, prepare
-from .errors import InputError
-from .model import Scenario
-from .sweep import scenario_fingerprint
+from .. import __version__
+from ..errors import InputError
+from ..inputs.model import Scenario
+from ..sim.engine import EngineSetup, prepare
+from ..sim.sweep import scenario_fingerprint
 
 __all__ = ["software_versions", "ensure_out_dir", "run_manifest"]
 

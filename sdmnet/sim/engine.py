@@ -33,11 +33,11 @@ import numpy as np
 import simpy
 from simpy.events import NORMAL
 
+from ..inputs.model import Architecture, Scenario
+from ..network.architectures import cable_geometries, units_needed
+from ..network.routing import Route, datacenter_pairs
+from ..network.traffic import pair_weights, size_classes
 from .allocation import FiberState, Grant, UnitState
-from .architectures import cable_geometries, units_needed
-from .model import Architecture, Scenario
-from .routing import Route, datacenter_pairs
-from .traffic import pair_weights, size_classes
 
 __all__ = ["EngineSetup", "ReplicationRecord", "prepare", "simulate_replication", "replication_seed"]
 
@@ -152,7 +152,7 @@ RouteFinder = Callable[[Scenario, Architecture], dict[tuple[str, str], list[Rout
 
 
 def _default_route_finder(scenario: Scenario, arch: Architecture) -> dict[tuple[str, str], list[Route]]:
-    from .pathtable import feasible_routes
+    from ..optics.pathtable import feasible_routes
 
     return feasible_routes(scenario, arch)
 
@@ -168,7 +168,7 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
         One of its architectures.
     route_finder : callable, optional
         ``(scenario, arch) -> {pair: [Route, ...]}`` giving the feasible routes in order;
-        by default the physical layer's :func:`sdmnet.pathtable.feasible_routes`.
+        by default the physical layer's :func:`sdmnet.optics.pathtable.feasible_routes`.
 
     Raises
     ------

@@ -7,7 +7,7 @@ For each architecture the network becomes a loss network of *units* (docs/model.
 * each datacenter pair and demand size is a Poisson stream of ``units_needed(size)`` units per
   hop over the pair's first feasible route;
 * per-link blocking by Kaufman-Roberts, coupled across links by the Erlang fixed point
-  (:func:`sdmnet.analytic.reduced_load_fixed_point`).
+  (:func:`sdmnet.analysis.analytic.reduced_load_fixed_point`).
 
 Ignored by the estimate: alternate routes (only the first is used), grooming (``share``) and
 ``lane_change`` (a unit may take any free position on every hop).  What this means for the gap
@@ -22,12 +22,12 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from ..inputs.model import Architecture, Scenario
+from ..network.architectures import cable_geometries, units_needed
+from ..network.routing import Route, datacenter_pairs
+from ..network.traffic import pair_weights, size_classes
+from ..optics.pathtable import feasible_routes
 from .analytic import Stream, reduced_load_fixed_point_batch
-from .architectures import cable_geometries, units_needed
-from .model import Architecture, Scenario
-from .pathtable import feasible_routes
-from .routing import Route, datacenter_pairs
-from .traffic import pair_weights, size_classes
 
 __all__ = [
     "NETWORK_COLUMNS",
@@ -129,7 +129,7 @@ def estimate_architecture(
         The architecture to estimate.
     route_finder : callable, optional
         ``(scenario, arch) -> {pair: [Route, ...]}``; the first route of each pair is used.
-        Default: :func:`sdmnet.pathtable.feasible_routes` (physically feasible routes).
+        Default: :func:`sdmnet.optics.pathtable.feasible_routes` (physically feasible routes).
 
     Returns
     -------

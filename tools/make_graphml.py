@@ -2,8 +2,8 @@
 
 Usage::
 
-    python topologies/make_graphml.py                       # nsfnet.toml -> nsfnet.graphml
-    python topologies/make_graphml.py IN.toml [OUT.graphml]
+    python tools/make_graphml.py                       # topologies/nsfnet.toml -> .graphml
+    python tools/make_graphml.py IN.toml [OUT.graphml]
 
 The GraphML holds the graph attribute ``name``, one graph attribute ``fiber_types.NAME.FIELD``
 per fiber-type figure, node data ``role``, ``traffic_weight``, ``x_km``, ``y_km`` (the node id
@@ -78,8 +78,8 @@ def graphml_text(data: dict[str, Any]) -> str:
 
 
 def main(argv: list[str]) -> int:
-    """Convert ``argv[0]`` (default: nsfnet.toml beside this script) to ``argv[1]``."""
-    here = Path(__file__).resolve().parent
+    """Convert ``argv[0]`` (default: the bundled nsfnet.toml) to ``argv[1]``."""
+    here = Path(__file__).resolve().parent.parent / "sdmnet" / "data" / "topologies"
     source = Path(argv[0]) if argv else here / "nsfnet.toml"
     target = Path(argv[1]) if len(argv) > 1 else source.with_suffix(".graphml")
     with source.open("rb") as handle:

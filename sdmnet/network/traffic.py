@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .model import Topology, TrafficSpec
+from ..inputs.model import Topology, TrafficSpec
 from .routing import datacenter_pairs
 
 __all__ = ["pair_weights", "pair_loads", "size_classes"]

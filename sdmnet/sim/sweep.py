@@ -2,7 +2,7 @@
 their results are kept.
 
 Every task is self-contained: it carries the scenario and its indices, and its random streams
-come from the scenario seed and the replication index alone (:func:`sdmnet.engine.replication_seed`),
+come from the scenario seed and the replication index alone (:func:`sdmnet.sim.engine.replication_seed`),
 so a sweep gives the same records whether it runs inline, in a local process pool or on a Dask
 cluster, in any order.
 
@@ -26,9 +26,9 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any, TextIO
 
+from ..errors import InputError, RunInterrupted
+from ..inputs.model import Scenario
 from .engine import EngineSetup, ReplicationRecord, prepare, simulate_replication
-from .errors import InputError, RunInterrupted
-from .model import Scenario
 
 __all__ = [
     "Task",

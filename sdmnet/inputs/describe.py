@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from dataclasses import fields
 
-from .architectures import unit_geometry, why_not_allowed
+from ..network.architectures import unit_geometry, why_not_allowed
 from .model import Architecture, FiberType, Scenario, Topology
 
 __all__ = ["describe", "describe_topology", "describe_scenario", "fiber_pair_km"]

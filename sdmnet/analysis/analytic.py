@@ -1,7 +1,7 @@
 """Teletraffic formulas for loss systems: Erlang B, Kaufman-Roberts, the Erlang fixed point.
 
 Pure functions of numbers; nothing here knows about topologies or scenarios
-(:mod:`sdmnet.estimate` maps a scenario onto them).
+(:mod:`sdmnet.analysis.estimate` maps a scenario onto them).
 
 * :func:`erlang_b` -- one class of one-server calls on ``n`` servers, full availability.
 * :func:`kaufman_roberts` -- several Poisson classes, class k taking ``b_k`` units of one

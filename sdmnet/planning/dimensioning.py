@@ -42,16 +42,16 @@ import numpy as np
 import pandas as pd
 from scipy import special
 
-from .analytic import erlang_b_servers, kaufman_roberts
-from .architectures import UnitGeometry, cable_geometries, units_needed
-from .engine import EngineSetup, prepare
-from .manifest import ensure_out_dir, run_manifest
-from .model import Architecture, PlanSpec, Scenario, Topology
-from .resources import InstalledResources, installed_resources
-from .stats import PointSummary, summarize_point
-from .sweep import plan_tasks, run_sweep
-from .tables import write_json, write_table
-from .traffic import pair_loads, pair_weights, size_classes
+from ..analysis.analytic import erlang_b_servers, kaufman_roberts
+from ..equipment.resources import InstalledResources, installed_resources
+from ..inputs.model import Architecture, PlanSpec, Scenario, Topology
+from ..network.architectures import UnitGeometry, cable_geometries, units_needed
+from ..network.traffic import pair_loads, pair_weights, size_classes
+from ..output.manifest import ensure_out_dir, run_manifest
+from ..output.tables import write_json, write_table
+from ..sim.engine import EngineSetup, prepare
+from ..sim.stats import PointSummary, summarize_point
+from ..sim.sweep import plan_tasks, run_sweep
 
 __all__ = [
     "DEFAULT_MAX_CANDIDATES",
@@ -144,7 +144,7 @@ def cable_offered_units(
     load_erlang : float
         Total offered load.
     setup : EngineSetup
-        The architecture's routes (:func:`sdmnet.engine.prepare`).
+        The architecture's routes (:func:`sdmnet.sim.engine.prepare`).
 
     Returns
     -------
@@ -903,7 +903,7 @@ def run_plan(
     Parameters
     ----------
     scenario : Scenario
-        From :func:`sdmnet.loaders.load_scenario`; ``[plan]`` defaults apply when absent.
+        From :func:`sdmnet.inputs.loaders.load_scenario`; ``[plan]`` defaults apply when absent.
     out_dir : path
         Output folder (created).
     jobs : int

@@ -2,7 +2,7 @@
 
 Each architecture switches a *unit* of g cores x one channel (a spatial superchannel when
 g > 1), or, for ``fiber`` switching, a whole fiber.  This module turns an
-:class:`~sdmnet.model.Architecture` and a :class:`~sdmnet.model.FiberType` into a
+:class:`~sdmnet.inputs.model.Architecture` and a :class:`~sdmnet.inputs.model.FiberType` into a
 :class:`UnitGeometry` that the engine, the analytic estimate and the dimensioning share.
 
 To add a switching architecture: add its name to ``model.SWITCHINGS``, give it a branch in
@@ -14,8 +14,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from .errors import ConfigurationError
-from .model import Architecture, FiberType, Scenario
+from ..errors import ConfigurationError
+from ..inputs.model import Architecture, FiberType, Scenario
 
 __all__ = [
     "UnitGeometry",

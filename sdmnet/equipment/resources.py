@@ -10,8 +10,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .architectures import cable_geometries
-from .model import Architecture, Scenario
+from ..inputs.model import Architecture, Scenario
+from ..network.architectures import cable_geometries
 
 __all__ = ["InstalledResources", "installed_resources", "ModuleFigures", "module_figures"]
 
@@ -75,10 +75,10 @@ class ModuleFigures:
     mimo_taps : int
         Longest equalizer over the feasible routes.
     power_w : float
-        Power of one module (:func:`sdmnet.physics.module_power_w`).
+        Power of one module (:func:`sdmnet.optics.physics.module_power_w`).
     cmul_per_bit_frequency, cmul_per_bit_time : float
         MIMO DSP load in complex multiplications per bit, frequency-domain (overlap-save) and
-        time-domain equalizer (:func:`sdmnet.physics.mimo_cmul_per_bit`); 0 without MIMO.
+        time-domain equalizer (:func:`sdmnet.optics.physics.mimo_cmul_per_bit`); 0 without MIMO.
     """
 
     lanes: int
@@ -91,8 +91,8 @@ class ModuleFigures:
 
 def module_figures(scenario: Scenario, arch: Architecture) -> ModuleFigures:
     """The module ``arch`` needs, from the physics of its feasible routes (worst case)."""
-    from .pathtable import evaluated_routes
-    from .physics import mimo_cmul_per_bit, module_power_w
+    from ..optics.pathtable import evaluated_routes
+    from ..optics.physics import mimo_cmul_per_bit, module_power_w
 
     trx = scenario.transceiver
     feasible = [phys for *_pair, found in evaluated_routes(scenario, arch) for _route, phys in found if phys.feasible]

@@ -50,8 +50,9 @@ from typing import Any, Literal, NoReturn, get_args, get_origin, get_type_hints
 
 import networkx as nx
 
-from .architectures import why_not_allowed
-from .errors import ConfigurationError, InputError
+from ..errors import ConfigurationError, InputError
+from ..network.architectures import why_not_allowed
+from ..network.routing import datacenter_pairs
 from .model import (
     Architecture,
     Cable,
@@ -65,7 +66,6 @@ from .model import (
     TrafficSpec,
     TransceiverSpec,
 )
-from .routing import datacenter_pairs
 
 try:  # Python 3.11+
     import tomllib

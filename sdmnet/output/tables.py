@@ -15,11 +15,11 @@ from pathlib import Path
 
 import pandas as pd
 
-from .architectures import cable_geometries
-from .engine import EngineSetup
-from .model import Scenario
-from .resources import InstalledResources
-from .stats import PointSummary
+from ..equipment.resources import InstalledResources
+from ..inputs.model import Scenario
+from ..network.architectures import cable_geometries
+from ..sim.engine import EngineSetup
+from ..sim.stats import PointSummary
 
 __all__ = [
     "SUMMARY_COLUMNS",
@@ -112,7 +112,7 @@ def add_module_columns(summary: pd.DataFrame, modules: dict) -> pd.DataFrame:
 
     ``transceiver_power_w_peak`` = peak modules x power of one module sized for the worst
     feasible route; ``mimo_cmul_per_bit`` uses the frequency-domain (overlap-save) equalizer,
-    ``mimo_cmul_per_bit_time_domain`` the time-domain one (:mod:`sdmnet.physics`).
+    ``mimo_cmul_per_bit_time_domain`` the time-domain one (:mod:`sdmnet.optics.physics`).
     """
     out = summary.copy()
     fig = [modules[name] for name in out["architecture"]]

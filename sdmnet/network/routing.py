@@ -1,7 +1,7 @@
 """Candidate paths between datacenter pairs: the k shortest by length (networkx).
 
 Paths are computed once per topology and architecture and then filtered by the physical layer
-(:mod:`sdmnet.physics`); the engine tries the feasible ones in order of length.
+(:mod:`sdmnet.optics.physics`); the engine tries the feasible ones in order of length.
 """
 
 from __future__ import annotations
@@ -11,7 +11,7 @@ from itertools import combinations, islice
 
 import networkx as nx
 
-from .model import Topology
+from ..inputs.model import Topology
 
 __all__ = ["Route", "k_shortest_routes", "datacenter_pairs"]
 

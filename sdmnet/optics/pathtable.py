@@ -1,8 +1,8 @@
 """Candidate paths with their physics: the ``paths`` table and the routes the engine may use.
 
 For every architecture and datacenter pair, the k shortest routes
-(:func:`sdmnet.routing.k_shortest_routes` on the architecture's view of the topology) are
-evaluated with :func:`sdmnet.physics.evaluate_path` for the architecture's unit on each cable's
+(:func:`sdmnet.network.routing.k_shortest_routes` on the architecture's view of the topology) are
+evaluated with :func:`sdmnet.optics.physics.evaluate_path` for the architecture's unit on each cable's
 fiber type.  A route whose cables give different unit sizes, or whose fiber type does not allow
 the architecture, is infeasible with that reason.
 """
@@ -15,10 +15,10 @@ from dataclasses import replace
 
 import pandas as pd
 
-from .architectures import unit_geometry, why_not_allowed
-from .model import Architecture, Scenario, Topology, TransceiverSpec
+from ..inputs.model import Architecture, Scenario, Topology, TransceiverSpec
+from ..network.architectures import unit_geometry, why_not_allowed
+from ..network.routing import Route, datacenter_pairs, k_shortest_routes
 from .physics import PathPhysics, evaluate_path, mimo_group
-from .routing import Route, datacenter_pairs, k_shortest_routes
 
 __all__ = ["PATH_COLUMNS", "evaluate_route", "evaluated_routes", "path_table", "feasible_routes"]
 
@@ -135,6 +135,6 @@ def path_table(scenario: Scenario) -> pd.DataFrame:
 
 
 def feasible_routes(scenario: Scenario, arch: Architecture) -> dict[tuple[str, str], list[Route]]:
-    """Per datacenter pair (in :func:`~sdmnet.routing.datacenter_pairs` order), the feasible
+    """Per datacenter pair (in :func:`~sdmnet.network.routing.datacenter_pairs` order), the feasible
     routes among the k shortest, in rank order; an empty list when none is feasible."""
     return {(a, b): [r for r, phys in found if phys.feasible] for a, b, found in evaluated_routes(scenario, arch)}

@@ -2,7 +2,7 @@
 
 A path is a sequence of hops ``(Cable, FiberType)`` in path order.  :func:`evaluate_path` adds up
 what each cable contributes and checks the result against a
-:class:`~sdmnet.model.TransceiverSpec`.  :func:`mimo_cmul_per_bit` and :func:`module_power_w`
+:class:`~sdmnet.inputs.model.TransceiverSpec`.  :func:`mimo_cmul_per_bit` and :func:`module_power_w`
 price the MIMO equalizer that randomly coupled fiber needs.  Formulas, defaults and limits of
 the model are written out in ``docs/physics.md``.
 
@@ -24,8 +24,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Literal
 
+from ..inputs.model import Cable, FiberType, TransceiverSpec
 from . import defaults
-from .model import Cable, FiberType, TransceiverSpec
 
 __all__ = [
     "PathPhysics",
@@ -144,7 +144,7 @@ def evaluate_path(
       coupled cables with a ``dgd_ps_per_km`` add ``coef_i L_i`` linearly.  A path with both
       adds the two parts linearly: the deterministic skew shifts the random impulse response
       as a whole, and a sum of the two widths bounds the total width (worst case).
-    - A fiber type without its coupling figure uses the default of :mod:`sdmnet.defaults`
+    - A fiber type without its coupling figure uses the default of :mod:`sdmnet.optics.defaults`
       (random: GD spread and MDL coefficients; weak: crosstalk per km); a weak fiber without
       ``dgd_ps_per_km`` contributes no delay.
     """

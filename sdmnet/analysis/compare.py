@@ -1,6 +1,6 @@
 """Analytic estimate beside the simulation: where they disagree and which assumption breaks.
 
-The estimate (:mod:`sdmnet.estimate`) treats every cable as a complete-sharing group of units,
+The estimate (:mod:`sdmnet.analysis.estimate`) treats every cable as a complete-sharing group of units,
 offers each pair one route, ignores grooming, and couples cables by the Erlang fixed point,
 which assumes that cables block independently.  When the estimate falls outside the simulated
 interval, :func:`explain_gap` names the assumptions that the scenario violates in the direction
@@ -13,7 +13,7 @@ import math
 
 import pandas as pd
 
-from .engine import EngineSetup
+from ..sim.engine import EngineSetup
 
 __all__ = ["attach_estimate", "explain_gap"]
 

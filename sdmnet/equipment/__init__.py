@@ -1,0 +1,3 @@
+"""Equipment that follows from the topology, the architecture and the traffic: switch ports,
+fibers, transceiver modules.
+"""

@@ -1,0 +1,3 @@
+"""What a scenario means on its graph: switching units per architecture, candidate routes, load per
+datacenter pair.
+"""

@@ -1,0 +1,1 @@
+"""Tables, figures, the HTML report and the run record (run.json) of every verb."""

@@ -309,3 +309,13 @@ def test_mimo_cost_rejects_bad_input():
         mimo_cmul_per_symbol(0, 8, 2.0, "time")
     with pytest.raises(ValueError):
         mimo_cmul_per_symbol(2, 8, 2.0, "spectral")  # type: ignore[arg-type]
+
+
+def test_span_count_cuts_cables_into_equal_spans_no_longer_than_the_span() -> None:
+    from sdmnet.optics.line import span_count
+
+    # ceil(L / span): common practice, no source (an amplifier after each span).
+    assert span_count(80.0, 80.0) == 1
+    assert span_count(160.0, 80.0) == 2
+    assert span_count(161.0, 80.0) == 3
+    assert span_count(5.0, 80.0) == 1

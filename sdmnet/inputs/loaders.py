@@ -58,12 +58,14 @@ from .model import (
     Cable,
     FiberType,
     ForecastSpec,
+    LineSpec,
     PlanSpec,
     RunSpec,
     Scenario,
     Site,
     Topology,
     TrafficSpec,
+    TransceiverClass,
     TransceiverSpec,
 )
 
@@ -91,6 +93,10 @@ SCENARIO_KEYS = (
     "architectures",
     "plan",
     "forecast",
+    "line",
+    "transceivers",
+    "costs",
+    "power",
 )
 TRAFFIC_KEYS = ("pattern", "load_erlang", "mean_holding", "sizes_gbps", "matrix")
 UNIT_COST_KEYS = ("fiber_pair_km", "transceiver_lane", "switch_port")
@@ -336,6 +342,10 @@ LIMITS: dict[tuple[type, str], Limit] = {
     (FiberType, "dgd_ps_per_km"): _at_least(0),
     (FiberType, "crosstalk_db_per_km"): _below(0),
     (FiberType, "mdl_db_per_sqrt_km"): _at_least(0),
+    (FiberType, "effective_area_um2"): _greater(0),
+    (FiberType, "dispersion_ps_per_nm_km"): _at_least(0),
+    (FiberType, "cladding_um"): _greater(0),
+    (FiberType, "group_crosstalk_db_per_km"): _below(0),
     (Site, "traffic_weight"): _at_least(0),
     (Cable, "length_km"): _greater(0),
     (Cable, "fiber_pairs"): _at_least(1),
@@ -364,6 +374,21 @@ LIMITS: dict[tuple[type, str], Limit] = {
     (PlanSpec, "target_blocking"): _inside_unit,
     (PlanSpec, "max_fiber_pairs"): _at_least(1),
     (PlanSpec, "unit_costs"): _each(_at_least(0)),
+    (PlanSpec, "confidence"): _inside_unit,
+    (PlanSpec, "pair_target"): _inside_unit,
+    (PlanSpec, "cut_target"): _inside_unit,
+    (LineSpec, "span_km"): _greater(0),
+    (LineSpec, "amplifier_nf_db"): _at_least(0),
+    (LineSpec, "margin_db"): _at_least(0),
+    (LineSpec, "fifo_loss_db"): _at_least(0),
+    (LineSpec, "fifo_crosstalk_db"): _below(0),
+    (LineSpec, "wss_pass_db"): _at_least(0),
+    (LineSpec, "fiber_xc_db"): _at_least(0),
+    (TransceiverClass, "lane_gbps"): _greater(0),
+    (TransceiverClass, "symbol_rate_gbaud"): _greater(0),
+    (TransceiverClass, "reach_km"): _greater(0),
+    (TransceiverClass, "power_w"): _at_least(0),
+    (TransceiverClass, "cost"): _at_least(0),
     (ForecastSpec, "years"): lambda v: _at_least(1)(v) or _at_most(MAX_FORECAST_YEARS)(v),
     (ForecastSpec, "growth_per_year"): _greater(-1),
     (ForecastSpec, "factors"): _each(_greater(0)),
@@ -936,6 +961,10 @@ def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
     architectures = _architectures(doc, data["architectures"], topology)
     plan = _plan(doc, data["plan"]) if "plan" in data else None
     forecast = _forecast(doc, data["forecast"]) if "forecast" in data else None
+    line = _section(doc, data, "line", LineSpec)
+    transceivers = _transceiver_classes(doc, data["transceivers"]) if "transceivers" in data else ()
+    costs = _item_table(doc, data, "costs")
+    power = _item_table(doc, data, "power")
     return Scenario(
         name=name,
         topology=topology,
@@ -947,7 +976,40 @@ def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
         plan=plan,
         forecast=forecast,
         source=path,
+        line=line,
+        transceivers=transceivers,
+        costs=costs,
+        power=power,
     )
+
+
+def _transceiver_classes(doc: _Doc, value: Any) -> tuple[TransceiverClass, ...]:
+    tables = _list_of_tables(doc, "transceivers", value)
+    if not tables:
+        doc.fail("transceivers", "empty: define at least one [[transceivers]] class, or leave the key out")
+    classes: list[TransceiverClass] = []
+    first_where: dict[str, str] = {}
+    for i, table in enumerate(tables):
+        where = f"transceivers[{i}]"
+        spec = TransceiverClass(**_read_fields(doc, where, table, TransceiverClass))
+        if not spec.name.strip():
+            doc.fail(_at(where, "name"), "transceiver class name is empty")
+        if spec.name in first_where:
+            doc.fail(_at(where, "name"), f"duplicate transceiver class '{spec.name}' (also {first_where[spec.name]})")
+        first_where[spec.name] = where
+        classes.append(spec)
+    return tuple(classes)
+
+
+def _item_table(doc: _Doc, data: Mapping[str, Any], key: str) -> dict[str, float]:
+    """``[costs]`` or ``[power]``: item name -> a finite number >= 0 (the items are checked by the
+    cost model)."""
+    if key not in data:
+        return {}
+    table = _table(doc, key, data[key])
+    at_least_zero = _at_least(0)
+    return {str(k): _within(doc, _at(key, str(k)), _as_float(doc, _at(key, str(k)), v), at_least_zero)
+            for k, v in table.items()}
 
 
 def _plan(doc: _Doc, value: Any) -> PlanSpec:

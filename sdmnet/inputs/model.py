@@ -29,6 +29,9 @@ __all__ = [
     "Topology",
     "TrafficSpec",
     "TransceiverSpec",
+    "AMPLIFIERS",
+    "LineSpec",
+    "TransceiverClass",
     "RunSpec",
     "Architecture",
     "PlanSpec",
@@ -40,6 +43,7 @@ Coupling = Literal["weak", "random"]
 Role = Literal["datacenter", "hub"]
 Switching = Literal["independent", "fractional-joint", "joint", "fiber"]
 Pattern = Literal["uniform", "gravity", "matrix"]
+Survive = Literal["none", "cable-cut"]
 
 COUPLINGS: tuple[str, ...] = ("weak", "random")
 ROLES: tuple[str, ...] = ("datacenter", "hub")
@@ -76,6 +80,16 @@ class FiberType:
         ``crosstalk_db_per_km + 10 log10(L)``.
     mdl_db_per_sqrt_km : float or None
         Mode-dependent loss coefficient (random coupling); MDL = coef * sqrt(L).
+    effective_area_um2 : float or None
+        Effective area of one core (of one coupled group's modes, for random coupling), for the
+        nonlinear interference of the line model; None: the default of :mod:`sdmnet.optics.defaults`.
+    dispersion_ps_per_nm_km : float or None
+        Chromatic dispersion at 1550 nm; None: the default.
+    cladding_um : float or None
+        Cladding diameter (125 um is the standard); None when not stated.
+    group_crosstalk_db_per_km : float or None
+        Random coupling with several coupled groups: crosstalk between groups after 1 km, in dB
+        (negative), growing as ``10 log10(L)``; None: the default.
     """
 
     name: str
@@ -88,28 +102,40 @@ class FiberType:
     dgd_ps_per_km: float | None = None
     crosstalk_db_per_km: float | None = None
     mdl_db_per_sqrt_km: float | None = None
+    effective_area_um2: float | None = None
+    dispersion_ps_per_nm_km: float | None = None
+    cladding_um: float | None = None
+    group_crosstalk_db_per_km: float | None = None
 
 
 @dataclass(frozen=True)
 class Site:
-    """A data-center campus (originates and terminates traffic) or a switching hub."""
+    """A data-center campus (originates and terminates traffic) or a switching hub.
+
+    ``transit = false``: no route passes through the site (it only originates and terminates).
+    """
 
     id: str
     role: Role
     traffic_weight: float = 1.0
     x_km: float | None = None
     y_km: float | None = None
+    transit: bool = True
 
 
 @dataclass(frozen=True)
 class Cable:
-    """A cable between two sites holding ``fiber_pairs`` pairs of one fiber type."""
+    """A cable between two sites holding ``fiber_pairs`` pairs of one fiber type.
+
+    Cables with the same ``risk_group`` (a shared duct or bridge) fail together.
+    """
 
     a: str
     b: str
     length_km: float
     fiber_type: str
     fiber_pairs: int
+    risk_group: str | None = None
 
     @property
     def key(self) -> str:
@@ -261,6 +287,79 @@ class TransceiverSpec:
     tap_margin: float = defaults.TAP_MARGIN
 
 
+Amplifier = Literal["per-core", "multicore"]
+AMPLIFIERS: tuple[str, ...] = ("per-core", "multicore")
+
+
+@dataclass(frozen=True)
+class LineSpec:
+    """The amplified line and the parts between fiber and switch (``[line]``).
+
+    Every cable is cut into ``ceil(length / span_km)`` equal spans with an amplifier after each.
+    Defaults and their sources: :mod:`sdmnet.optics.defaults`; the model: ``docs/physics.md``.
+
+    Attributes
+    ----------
+    span_km : float
+        Longest amplifier span.
+    amplifier_nf_db : float
+        Noise figure of every amplifier.
+    launch_dbm : float
+        Launch power per channel per core.
+    amplifier : {"per-core", "multicore"}
+        One amplifier per core, or one multicore amplifier per fiber sharing its pumps.
+    margin_db : float
+        OSNR margin a path keeps above a transceiver class's requirement.
+    fifo_loss_db, fifo_crosstalk_db : float
+        Loss and crosstalk of one fan-in/fan-out device (weakly coupled fiber switched core by core).
+    wss_pass_db : float
+        Loss of one pass through a wavelength-selective switch.
+    fiber_xc_db : float
+        Loss of one pass through a fiber cross-connect.
+    """
+
+    span_km: float = defaults.SPAN_KM
+    amplifier_nf_db: float = defaults.AMPLIFIER_NF_DB
+    launch_dbm: float = defaults.LAUNCH_DBM
+    amplifier: Amplifier = "per-core"
+    margin_db: float = defaults.OSNR_MARGIN_DB
+    fifo_loss_db: float = defaults.FIFO_LOSS_DB
+    fifo_crosstalk_db: float = defaults.FIFO_CROSSTALK_DB
+    wss_pass_db: float = defaults.WSS_PASS_DB
+    fiber_xc_db: float = defaults.FIBER_XC_DB
+
+
+@dataclass(frozen=True)
+class TransceiverClass:
+    """One transceiver class of ``[[transceivers]]``: what it carries and what it needs.
+
+    Attributes
+    ----------
+    name : str
+        Label in tables.
+    lane_gbps : float
+        Net rate of one lane.
+    symbol_rate_gbaud : float
+        Symbol rate per lane.
+    required_osnr_db : float
+        OSNR the class needs, in the 0.1 nm reference bandwidth.
+    reach_km : float or None
+        Longest path the class is specified for (None: limited by OSNR alone).
+    power_w : float or None
+        Electrical power of one lane (None: the cost model's default).
+    cost : float or None
+        Relative cost of one lane (None: the cost model's default).
+    """
+
+    name: str
+    lane_gbps: float
+    symbol_rate_gbaud: float
+    required_osnr_db: float
+    reach_km: float | None = None
+    power_w: float | None = None
+    cost: float | None = None
+
+
 @dataclass(frozen=True)
 class RunSpec:
     """How long and how often to simulate.
@@ -329,12 +428,25 @@ class PlanSpec:
         Upper bound of the search per cable.
     unit_costs : dict
         Optional unit prices: keys ``fiber_pair_km``, ``transceiver_lane``, ``switch_port``.
+    confidence : float
+        Level of the interval whose upper bound must be at or below the target.
+    pair_target : float or None
+        No datacenter pair's blocking above it (None: reported, not enforced).
+    survive : {"none", "cable-cut"}
+        ``cable-cut``: after any single cut (of a cable, or of a risk group), blocking stays at
+        or below ``cut_target``.
+    cut_target : float or None
+        Blocking allowed after a cut (None with ``survive = "cable-cut"``: the target).
     """
 
     target_blocking: float = 0.01
     per_pair: bool = False
     max_fiber_pairs: int = 64
     unit_costs: dict[str, float] = field(default_factory=dict)
+    confidence: float = 0.95
+    pair_target: float | None = None
+    survive: Survive = "none"
+    cut_target: float | None = None
 
 
 @dataclass(frozen=True)
@@ -366,7 +478,13 @@ class ForecastSpec:
 
 @dataclass(frozen=True)
 class Scenario:
-    """Everything one run needs: topology, traffic, transceiver, run lengths, architectures."""
+    """Everything one run needs: topology, traffic, transceiver, run lengths, architectures.
+
+    ``line`` is the amplified line (``[line]``); ``transceivers`` the classes of
+    ``[[transceivers]]`` (empty: ``transceiver`` is the only class); ``costs`` and ``power`` the
+    scenario's overrides of the cost model's relative unit costs and watts per item
+    (:mod:`sdmnet.equipment`).
+    """
 
     name: str
     topology: Topology
@@ -378,6 +496,10 @@ class Scenario:
     plan: PlanSpec | None = None
     forecast: ForecastSpec | None = None
     source: Path | None = None
+    line: LineSpec = field(default_factory=LineSpec)
+    transceivers: tuple[TransceiverClass, ...] = ()
+    costs: dict[str, float] = field(default_factory=dict)
+    power: dict[str, float] = field(default_factory=dict)
 
     def architecture(self, name: str) -> Architecture:
         """The architecture named ``name`` (KeyError if absent)."""

@@ -48,6 +48,14 @@ __all__ = [
     "CONNECTORS_PER_CABLE",
     "SPLICE_LOSS_DB",
     "SPLICE_SPACING_KM",
+    "SPAN_KM",
+    "AMPLIFIER_NF_DB",
+    "LAUNCH_DBM",
+    "OSNR_MARGIN_DB",
+    "FIFO_LOSS_DB",
+    "FIFO_CROSSTALK_DB",
+    "WSS_PASS_DB",
+    "FIBER_XC_DB",
 ]
 
 # --------------------------------------------------------------------------------------------
@@ -171,3 +179,26 @@ CONNECTORS_PER_CABLE = 2
 SPLICE_LOSS_DB = 0.1
 # Cable sections between splices (reel length): from memory (4-6 km typical).
 SPLICE_SPACING_KM = 5.0
+
+# --------------------------------------------------------------------------------------------
+# Amplified line and SDM parts (``[line]``)
+# --------------------------------------------------------------------------------------------
+
+# Amplifier spacing of terrestrial lines: common practice, no source (80 km is the usual
+# planning span).
+SPAN_KM = 80.0
+# EDFA noise figure: from memory (4.5-5.5 dB typical of datasheets).
+AMPLIFIER_NF_DB = 5.0
+# Launch power per channel per core: from memory (about 0 dBm per channel on 50-75 GHz grids).
+LAUNCH_DBM = 0.0
+# OSNR margin kept above a class's requirement: common practice, no source.
+OSNR_MARGIN_DB = 2.0
+# Fan-in/fan-out device of a weakly coupled multicore fiber: from memory (0.5-1.5 dB loss,
+# -40 to -60 dB crosstalk).
+FIFO_LOSS_DB = 1.0
+FIFO_CROSSTALK_DB = -50.0
+# One pass through a wavelength-selective switch: from memory (typical datasheet 5-7 dB).
+WSS_PASS_DB = SWITCH_INSERTION_LOSS_DB
+# One pass through a fiber cross-connect (optical circuit switch): from memory (1-3 dB).
+FIBER_XC_DB = 2.0
+

@@ -11,6 +11,7 @@ import pandas as pd
 import pytest
 
 from sdmnet.output import figures
+from sdmnet.output.figures.topology import _place_site_labels
 
 
 def png_chunks(data: bytes) -> list[tuple[bytes, bytes]]:
@@ -214,7 +215,7 @@ def test_site_labels_of_a_crowded_cluster_do_not_cover_each_other():
     assert _overlapping(_label_boxes(ax)), "the case is not crowded enough to test anything"
     for text in naive:
         text.remove()
-    figures._place_site_labels(ax, pos, segments)
+    _place_site_labels(ax, pos, segments)
     assert len(ax.texts) == 5
     assert _overlapping(_label_boxes(ax)) == []
     plt.close(fig)

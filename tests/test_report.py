@@ -426,3 +426,14 @@ def test_the_browser_probe_notices_a_broken_image(simulated: Path, tmp_path: Pat
     findings, _ = probe(page, tmp_path)
     assert findings["images"][0]["width"] == 0
     assert findings["errors"] == ["IMG failed to load"]
+
+
+def test_text_from_the_tables_is_escaped_not_interpreted(tmp_path: Path) -> None:
+    # Autoescaping: markup in a table cell or a file name shows as text and opens no element.
+    pd.DataFrame([{"architecture": "<b>bold</b> & co", "load_erlang": 1.0, "blocking": 0.1}]).to_csv(
+        tmp_path / "estimate.csv", index=False
+    )
+    pd.DataFrame([{"note": '<img src="x">'}]).to_csv(tmp_path / "extra<i>.csv", index=False)
+    page = write_report(tmp_path).read_text(encoding="utf-8")
+    assert "<b>bold</b>" not in page and "&lt;b&gt;bold&lt;/b&gt; &amp; co" in page
+    assert '<img src="x">' not in page and "extra&lt;i&gt;.csv" in page

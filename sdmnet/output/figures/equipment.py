@@ -1,0 +1,170 @@
+"""Equipment figures: resources per architecture, planned fiber pairs per cable, the forecast by year."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import matplotlib.pyplot as plt
+import numpy as np
+import pandas as pd
+from matplotlib.ticker import MaxNLocator
+
+from .look import INK, apply_look, architectures_in, bar_style_for, fmt_number, save_figure, style_for, with_look
+
+__all__ = ["resources_figure", "forecast_figure", "plan_figure"]
+
+def _at_highest_load(summary: pd.DataFrame) -> tuple[pd.DataFrame, str]:
+    """Each architecture's row at its highest load, and how to say which load that is."""
+    rows = []
+    for name in architectures_in(summary):
+        part = summary[summary["architecture"].astype(str) == name]
+        rows.append(part.loc[part["load_erlang"].astype(float).idxmax()])
+    top = pd.DataFrame(rows)
+    loads = sorted(set(float(x) for x in top["load_erlang"]))
+    when = f"{fmt_number(loads[0])} Erlang" if len(loads) == 1 else "each architecture's highest load"
+    return top, when
+
+
+def _bar_labels(ax: plt.Axes, bars, fmt: str = "{:,.0f}") -> None:
+    ax.bar_label(bars, labels=[fmt.format(b.get_height()) for b in bars], padding=2, fontsize=7, color=INK)
+
+
+@with_look
+def resources_figure(summary: pd.DataFrame, path: Path) -> Path:
+    """Transceiver modules (peak and mean), switch ports and fiber pairs per architecture.
+
+    Grouped bars at the highest offered load point (resources that grow with load, the
+    transceivers, are largest there; switch ports and fiber pairs are installed equipment and do
+    not depend on load).  The title names the load.
+    """
+    top, when = _at_highest_load(summary)
+    names = [str(a) for a in top["architecture"]]
+    x = np.arange(len(names))
+    fig, axes = plt.subplots(1, 3, figsize=(11.0, 3.9), gridspec_kw={"width_ratios": [1.5, 1, 1]})
+    ax = axes[0]
+    width = 0.38
+    peak = ax.bar(
+        x - width / 2,
+        top["transceivers_peak"].astype(float),
+        width,
+        color="#3b3b3b",
+        edgecolor=INK,
+        linewidth=0.6,
+        label="peak",
+    )
+    has_mean = "transceivers_mean" in top.columns
+    if has_mean:
+        mean = ax.bar(
+            x + width / 2,
+            top["transceivers_mean"].astype(float),
+            width,
+            color="white",
+            hatch="////",
+            edgecolor=INK,
+            linewidth=0.6,
+            label="mean",
+        )
+        _bar_labels(ax, mean)
+    _bar_labels(ax, peak)
+    ax.set_ylabel("transceiver modules in use (modules)")
+    ax.set_title("Transceivers")
+    ax.legend(loc="upper right", ncols=2)
+    for ax, column, label, title in (
+        (axes[1], "switch_ports", "switch ports installed (ports)", "Switch ports"),
+        (axes[2], "fiber_pairs", "fiber pairs installed (pairs)", "Fiber pairs"),
+    ):
+        styles = [bar_style_for(i) for i in range(len(names))]
+        bars = ax.bar(
+            x,
+            top[column].astype(float),
+            0.6,
+            color=[s["color"] for s in styles],
+            hatch=[s["hatch"] for s in styles],
+            edgecolor=INK,
+            linewidth=0.6,
+        )
+        _bar_labels(ax, bars)
+        ax.set_ylabel(label)
+        ax.set_title(title)
+    for ax in axes:
+        ax.set_xticks(
+            x, names, rotation=30 if len(names) > 3 else 0, ha="right" if len(names) > 3 else "center"
+        )
+        ax.set_xlabel("architecture")
+        ax.margins(y=0.15)
+        apply_look(ax)
+        ax.grid(False, axis="x")
+    fig.suptitle(f"Resources per architecture at the highest offered load ({when})", x=0.01, ha="left")
+    fig.tight_layout()
+    return save_figure(fig, path)
+
+
+@with_look
+def forecast_figure(totals: pd.DataFrame, path: Path) -> Path:
+    """Fiber pairs, transceiver modules and switch ports year by year, per architecture.
+
+    Parameters
+    ----------
+    totals : DataFrame
+        One row per (year, architecture): ``year, architecture`` and any of ``fiber_pairs``,
+        ``transceivers_peak``, ``switch_ports`` (network totals).
+    path : path
+        PNG to write.
+    """
+    wanted = [
+        ("fiber_pairs", "fiber pairs installed (pairs)", "Fiber pairs"),
+        ("transceivers_peak", "peak transceiver modules (modules)", "Transceivers"),
+        ("switch_ports", "switch ports installed (ports)", "Switch ports"),
+    ]
+    panels = [w for w in wanted if w[0] in totals.columns]
+    order = architectures_in(totals)
+    fig, axes = plt.subplots(1, len(panels), figsize=(3.8 * len(panels), 3.7), squeeze=False)
+    for ax, (column, label, title) in zip(axes[0], panels):
+        for i, name in enumerate(order):
+            part = totals[totals["architecture"].astype(str) == name].sort_values("year", kind="stable")
+            ax.plot(part["year"], part[column].astype(float), label=name, **style_for(i))
+        ax.set_xlabel("year of the forecast")
+        ax.set_ylabel(label)
+        ax.set_title(title)
+        ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+        apply_look(ax)
+    fig.suptitle("Forecast: equipment needed year by year", x=0.01, ha="left")
+    fig.tight_layout()
+    handles, labels = axes[0][0].get_legend_handles_labels()
+    fig.legend(
+        handles,
+        labels,
+        title="architecture",
+        loc="lower center",
+        ncols=min(len(order), 5),
+        bbox_to_anchor=(0.5, -0.1),
+    )
+    return save_figure(fig, path)
+
+
+
+@with_look
+def plan_figure(plan: pd.DataFrame, path: Path) -> Path:
+    """Fiber pairs per cable that meet the target blocking, one bar series per architecture."""
+    order = architectures_in(plan)
+    cables = list(dict.fromkeys(str(c) for c in plan["cable"]))
+    height = 0.8 / max(len(order), 1)
+    fig, ax = plt.subplots(
+        figsize=(7.2, 1.2 + 0.22 * len(cables) * max(len(order), 1) ** 0.5 + 0.3 * len(cables))
+    )
+    y = np.arange(len(cables))
+    for i, name in enumerate(order):
+        part = plan[plan["architecture"].astype(str) == name]
+        pairs = dict(zip((str(c) for c in part["cable"]), part["fiber_pairs"].astype(float)))
+        values = [pairs.get(c, 0.0) for c in cables]
+        ax.barh(y - 0.4 + height * (i + 0.5), values, height, label=name, **bar_style_for(i))
+    ax.set_yticks(y, cables)
+    ax.invert_yaxis()
+    ax.set_xlabel("fiber pairs (pairs)")
+    ax.set_ylabel("cable (site-site)")
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+    ax.set_title("Planned fiber pairs per cable")
+    apply_look(ax)
+    ax.grid(False, axis="y")
+    ax.legend(title="architecture", loc="upper left", bbox_to_anchor=(1.01, 1.0))
+    return save_figure(fig, path)

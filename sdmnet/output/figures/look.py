@@ -1,0 +1,145 @@
+"""The figures' look, shared by every figure: colours, markers, hatches, rc settings, saving.
+
+Our look: one marker shape and one line style per architecture as well as one colour, so that
+figures read in greyscale and for colour-blind readers; colours from the Okabe-Ito palette
+(Okabe & Ito, "Color Universal Design", 2002; common practice for colour-blind-safe plots).
+Bars carry a hatch per series for the same reason.  Titles sit on the left, grids are light, and
+every axis names its unit.
+
+Every figure is drawn inside matplotlib's defaults overlaid with :data:`LOOK` (:func:`with_look`),
+so a user's matplotlibrc cannot change our output, and saved by :func:`save_figure` with fixed
+metadata, so the same tables always give the same PNG bytes.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from functools import wraps
+from pathlib import Path
+from typing import Any, TypeVar
+
+import matplotlib
+
+matplotlib.use("Agg")  # no screen: figures go to files only
+
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+import pandas as pd  # noqa: E402
+from matplotlib.colors import LinearSegmentedColormap  # noqa: E402
+
+# Okabe-Ito colours; markers and dashes differ too.
+STYLE_CYCLE = [
+    ("#0072B2", "o", "-"),
+    ("#D55E00", "s", "--"),
+    ("#009E73", "^", "-."),
+    ("#CC79A7", "D", ":"),
+    ("#E69F00", "v", (0, (5, 1, 1, 1))),
+    ("#56B4E9", "P", (0, (3, 1, 1, 1, 1, 1))),
+    ("#000000", "X", (0, (1, 1))),
+]
+
+# One hatch per bar series, so bars stay apart in greyscale.
+HATCHES = ["", "///", "\\\\\\", "xxx", "...", "++", "oo"]
+
+INK = "#222222"
+QUIET = "#5a5a5a"
+
+# Our rc settings: fonts bundled with matplotlib (the same glyphs on every machine), left titles.
+LOOK: dict[str, Any] = {
+    "font.family": "DejaVu Sans",
+    "font.size": 9,
+    "axes.titlesize": 10,
+    "axes.titleweight": "bold",
+    "axes.titlelocation": "left",
+    "axes.titlepad": 8,
+    "axes.labelsize": 9,
+    "axes.labelcolor": INK,
+    "axes.edgecolor": "#555555",
+    "axes.linewidth": 0.8,
+    "axes.facecolor": "white",
+    "figure.facecolor": "white",
+    "savefig.facecolor": "white",
+    "figure.titlesize": 11,
+    "figure.titleweight": "bold",
+    "xtick.color": "#555555",
+    "ytick.color": "#555555",
+    "xtick.labelcolor": INK,
+    "ytick.labelcolor": INK,
+    "xtick.labelsize": 8,
+    "ytick.labelsize": 8,
+    "legend.fontsize": 8,
+    "legend.title_fontsize": 8,
+    "legend.frameon": False,
+    "hatch.linewidth": 0.7,
+    "hatch.color": INK,
+    "svg.hashsalt": "sdmnet",  # fixed ids if anyone saves SVG
+    "text.color": INK,
+}
+
+# Greyscale-safe map for utilisation: cividis (monotonic lightness, designed for colour-vision
+# deficiency; Nunez, Anderton & Renslow, PLOS ONE 13(7), 2018), reversed so busy cables are dark
+# on the white page, and cut before its palest yellow so idle cables stay visible.
+UTILISATION_CMAP = LinearSegmentedColormap.from_list(
+    "sdmnet-utilisation", plt.get_cmap("cividis_r")(np.linspace(0.12, 1.0, 256))
+)
+
+DPI = 120
+_F = TypeVar("_F", bound=Callable[..., Path])
+
+
+def style_for(index: int) -> dict:
+    """Line style keywords for the ``index``-th series."""
+    colour, marker, dash = STYLE_CYCLE[index % len(STYLE_CYCLE)]
+    return {"color": colour, "marker": marker, "linestyle": dash, "markersize": 6, "linewidth": 1.6}
+
+
+def bar_style_for(index: int) -> dict:
+    """Bar keywords (fill colour, hatch, edge) for the ``index``-th series."""
+    colour = STYLE_CYCLE[index % len(STYLE_CYCLE)][0]
+    return {"color": colour, "hatch": HATCHES[index % len(HATCHES)], "edgecolor": INK, "linewidth": 0.6}
+
+
+def with_look(func: _F) -> _F:
+    """Draw ``func``'s figure inside matplotlib's defaults overlaid with :data:`LOOK`."""
+    @wraps(func)
+    def wrapper(*args: Any, **kwargs: Any) -> Path:
+        with plt.style.context(["default", LOOK]):
+            return func(*args, **kwargs)
+
+    return wrapper  # type: ignore[return-value]
+
+
+def apply_look(ax: plt.Axes) -> None:
+    """Light grids behind the data, no top or right spine."""
+    ax.grid(True, which="major", color="#d6d6d6", linewidth=0.6)
+    ax.grid(True, which="minor", color="#eeeeee", linewidth=0.4)
+    ax.set_axisbelow(True)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+
+
+def footnote(fig: plt.Figure, text: str) -> None:
+    """A small grey footnote under the axes."""
+    fig.text(0.01, -0.01, text, ha="left", va="top", fontsize=7, color=QUIET, wrap=True)
+
+
+def save_figure(fig: plt.Figure, path: Path) -> Path:
+    """Save as PNG with fixed metadata so identical figures give identical bytes."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    with plt.style.context(["default", LOOK]):
+        fig.savefig(path, dpi=DPI, bbox_inches="tight", metadata={"Software": None})
+    plt.close(fig)
+    return path
+
+
+def fmt_number(value: float) -> str:
+    """A number without a trailing ``.0``."""
+    return f"{value:g}" if float(value) != int(value) else f"{int(value)}"
+
+
+def architectures_in(frame: pd.DataFrame) -> list[str]:
+    """Architecture names in order of first appearance (the scenario's order)."""
+    return list(dict.fromkeys(str(a) for a in frame["architecture"]))
+
+

@@ -1,0 +1,82 @@
+"""A self-contained HTML report of whatever results a folder holds.
+
+:func:`write_report` reads the tables that simulate, estimate, paths, plan and forecast write
+(any subset, :mod:`.results`), lets each section of :mod:`.sections` draw its figures and gather
+its data, and renders the page from the one template ``report.html.j2`` (Jinja2, autoescaping
+on).  Figures are embedded as data URIs; the page holds no script, no timestamp and no outside
+reference, and its parts come in a fixed order, so the same folder always gives the same bytes.
+"""
+
+from __future__ import annotations
+
+from functools import cache
+from importlib import resources
+from pathlib import Path
+
+import jinja2
+
+from ..tables import write_text
+from .results import RESULT_TABLES, ResultFolder, forecast_totals, read_results
+from .sections import build_sections
+
+__all__ = ["RESULT_TABLES", "CAUTIONS", "ResultFolder", "read_results", "forecast_totals", "render", "write_report"]
+
+CAUTIONS = (
+    "The figures in this report are planning estimates from a statistical model of the network: "
+    "blocking comes from a finite number of simulated requests (see the confidence intervals), "
+    "and equipment counts follow from the model's simplifications.  They are not a design for "
+    "construction.  Deployment follows the equipment vendors' specifications, laser-safety rules "
+    "for optical transmitters, local codes and permits, and licensed engineering practice."
+)
+
+
+@cache
+def _template() -> jinja2.Template:
+    env = jinja2.Environment(
+        autoescape=True,
+        undefined=jinja2.StrictUndefined,  # a section whose data lacks a key fails loudly
+        trim_blocks=True,
+        lstrip_blocks=True,
+        keep_trailing_newline=True,
+    )
+    source = resources.files(__package__).joinpath("report.html.j2").read_text(encoding="utf-8")
+    return env.from_string(source)
+
+
+def render(res: ResultFolder) -> str:
+    """The page for ``res`` (draws the figures into its folder on the way)."""
+    return _template().render(
+        name=res.scenario().get("name") or res.path.name,
+        files_read=res.files_read(),
+        cautions=CAUTIONS,
+        sections=build_sections(res),
+    )
+
+
+def write_report(folder: Path | str) -> Path:
+    """Draw the figures and write a self-contained ``report.html`` for the results in ``folder``.
+
+    Reads whichever of ``summary.csv``, ``classes.csv``, ``pairs.csv``, ``sites.csv``,
+    ``cables.csv``, ``estimate.csv``, ``paths.csv``, ``plan.csv``, ``plan_totals.csv``,
+    ``forecast.csv`` and ``run.json`` exist, and skips the rest.  Figures are written as PNG into
+    the folder (``blocking.png``, ``bandwidth_blocking.png``, ``resources.png``, ``topology.png``,
+    ``estimate.png``, ``plan.png``, ``forecast.png``, each only when its tables exist) and embedded
+    in the page as data URIs.  The same folder always gives byte-identical files.
+
+    Parameters
+    ----------
+    folder : path
+        An output folder of ``sdmnet simulate``, ``estimate``, ``paths``, ``plan`` or ``forecast``.
+
+    Returns
+    -------
+    Path
+        The ``report.html`` written.
+
+    Raises
+    ------
+    InputError
+        No such folder, no result file in it, or a file that cannot be read.
+    """
+    res = read_results(folder)
+    return write_text(render(res), res.path / "report.html")

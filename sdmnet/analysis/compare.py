@@ -1,10 +1,10 @@
 """Analytic estimate beside the simulation: where they disagree and which assumption breaks.
 
-The estimate (:mod:`sdmnet.analysis.estimate`) treats every cable as a complete-sharing group of units,
-offers each pair one route, ignores grooming, and couples cables by the Erlang fixed point,
-which assumes that cables block independently.  When the estimate falls outside the simulated
-interval, :func:`explain_gap` names the assumptions that the scenario violates in the direction
-of the gap (see docs/estimate.md).
+The estimate (:mod:`sdmnet.analysis.estimate`) treats every cable as a complete-sharing group of units
+that blocks independently of the others, offers overflow to later routes as Poisson traffic,
+takes free channels as spread at random for the continuity rule and approximates grooming.
+When the estimate falls outside the simulated interval, :func:`explain_gap` names the
+assumptions that can move it in the direction of the gap (see docs/estimate.md).
 """
 
 from __future__ import annotations
@@ -31,19 +31,18 @@ def explain_gap(setup: EngineSetup, estimate: float, low: float, high: float) ->
     reasons = []
     if estimate > high:
         direction = "estimate above the interval"
-        if alternates:
-            reasons.append("alternate routes ignored (the estimate offers each pair its first route only)")
         if multi_hop:
             reasons.append("cables assumed to block independently (overestimates on cables in series)")
-        if arch.share:
-            reasons.append("grooming ignored (lit units carry later demands in the simulation)")
+        if multi_hop and not setup.whole_fiber:
+            reasons.append("free channels taken as spread at random (first fit packs them, so routes clash less)")
+        if arch.share and not setup.whole_fiber:
+            reasons.append("grooming approximated (spare capacity of lit units taken as uniform)")
     else:
         direction = "estimate below the interval"
-        if multi_hop and not setup.whole_fiber:
-            what = "channel" if arch.lane_change else "channel and core-group"
-            reasons.append(f"{what} continuity ignored (the estimate lets a unit take any free position per cable)")
-        if multi_hop and setup.whole_fiber:
-            reasons.append("fiber continuity ignored (a fiber must be free on every cable of the route)")
+        if alternates:
+            reasons.append("overflow to later routes offered as Poisson traffic (it is peakier: low at light load)")
+        if arch.share and not setup.whole_fiber:
+            reasons.append("grooming approximated (spare capacity of lit units taken as uniform)")
     if not reasons:
         reasons.append("no modelling assumption identified: sampling error or a too short warm-up")
     return f"{direction}: " + "; ".join(reasons)

@@ -3,19 +3,20 @@
 For each architecture the network becomes a loss network of *units* (docs/model.md, section 2):
 
 * a cable holds ``fiber_pairs x groups_per_fiber x channels`` units (``fiber`` switching: one
-  unit per fiber pair), all fully shared (complete sharing, no channel continuity);
+  unit per fiber pair);
 * each datacenter pair and demand size is a Poisson stream of ``units_needed(size)`` units per
-  hop over the pair's first feasible route;
-* per-link blocking by Kaufman-Roberts, coupled across links by the Erlang fixed point
-  (:func:`sdmnet.analysis.analytic.reduced_load_fixed_point`).
+  hop that tries the pair's feasible routes in order, as the simulator does;
+* a route of several hops needs common channel slots (continuity), with or without lane change;
+* per-link blocking by Kaufman-Roberts, coupled across links by the routed reduced-load fixed
+  point (:func:`sdmnet.analysis.reduced_load.routed_fixed_point`); grooming (``share``) by a
+  heuristic share of demands that ride lit units.
 
-Ignored by the estimate: alternate routes (only the first is used), grooming (``share``) and
-``lane_change`` (a unit may take any free position on every hop).  What this means for the gap
-to simulation: ``docs/estimate.md``.
+What each approximation assumes and where it fails: ``docs/estimate.md``.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -23,11 +24,11 @@ import numpy as np
 import pandas as pd
 
 from ..inputs.model import Architecture, Scenario
-from ..network.architectures import cable_geometries, units_needed
+from ..network.architectures import UnitGeometry, cable_geometries, units_needed
 from ..network.routing import Route, datacenter_pairs
 from ..network.traffic import pair_weights, size_classes
 from ..optics.pathtable import feasible_routes
-from .analytic import Stream, reduced_load_fixed_point_batch
+from .reduced_load import RoutedStream, RouteOption, routed_fixed_point
 
 __all__ = [
     "NETWORK_COLUMNS",
@@ -52,8 +53,8 @@ RouteFinder = Callable[[Scenario, Architecture], dict[tuple[str, str], list[Rout
 
 # Settings of the fixed point used for every estimate.
 _DAMPING = 0.5
-_TOL = 1e-10
-_MAX_ITER = 10_000
+_TOL = 1e-9
+_MAX_ITER = 2_000
 
 
 @dataclass(frozen=True)
@@ -65,40 +66,77 @@ class _Model:
     pair_share: np.ndarray  # (N,) share of the total load per pair
     routed: np.ndarray  # (N,) bool: pair has a route
     stream_pair: np.ndarray  # (S,) pair index of each stream
-    stream_rate: np.ndarray  # (S,) offered load per Erlang of total load
+    stream_rate: np.ndarray  # (S,) offered load per Erlang of total load (demands needing new units)
     stream_gbps: np.ndarray  # (S,) demand size of each stream
-    routes: list[tuple[tuple[int, ...], tuple[int, ...]]]  # (links, units per link) per stream
+    streams: list[RoutedStream]  # the routes each stream tries, in order
 
 
-def _first_route(found: dict[tuple[str, str], list[Route]], a: str, b: str) -> Route | None:
+def _pair_routes(found: dict[tuple[str, str], list[Route]], a: str, b: str) -> list[Route]:
     routes = found.get((a, b))
-    if routes is None:
-        routes = found.get((b, a), [])
-    return routes[0] if routes else None
+    return routes if routes is not None else found.get((b, a), [])
+
+
+def _option(route: Route, units: int, geos: list[UnitGeometry], fibers: list[int], lane_change: bool) -> RouteOption:
+    """The route with ``units`` per hop and its continuity slots (docs/estimate.md)."""
+    geo = geos[route.cables[0]]
+    per_hop = (units,) * len(route.cables)
+    if geo.whole_fiber:
+        # Fiber switching: any free fiber on each hop, no continuity rule.
+        return RouteOption(tuple(route.cables), per_hop)
+    if lane_change:
+        slots = min(geos[c].channels for c in route.cables)
+        positions = tuple(fibers[c] * geos[c].groups_per_fiber for c in route.cables)
+    else:
+        slots = min(geos[c].channels for c in route.cables) * geo.groups_per_fiber
+        positions = tuple(fibers[c] for c in route.cables)
+    return RouteOption(tuple(route.cables), per_hop, slots, positions)
+
+
+def _grooming(size: float, unit_gbps: float, pair_load: float) -> tuple[float, float]:
+    """Share of a size's demands that need new units, and the unit load per such demand
+    relative to ``units_needed`` (docs/estimate.md, grooming).
+
+    A demand rides spare capacity when the pair has a lit unit with at least ``size`` spare:
+    the spare of the pair's last unit is taken as uniform over the unit, and the pair has no lit
+    unit with the probability that none of its demands is in progress (Poisson, exp(-load)).
+    """
+    n = max(1, math.ceil(size / unit_gbps - 1e-9))
+    idle = math.exp(-pair_load)
+    new = idle + (1.0 - idle) * min(1.0, size / unit_gbps)
+    return new, min(1.0, size / unit_gbps / (new * n))
 
 
 def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) -> _Model:
     topo = scenario.topology_for(arch)
     geos = cable_geometries(scenario, arch)
-    capacities = np.array([c.fiber_pairs * g.units_per_fiber for c, g in zip(topo.cables, geos)], dtype=np.int64)
+    fibers = [c.fiber_pairs for c in topo.cables]
+    capacities = np.array([f * g.units_per_fiber for f, g in zip(fibers, geos)], dtype=np.int64)
     weights = pair_weights(topo, scenario.traffic)
     pairs = [p for p in datacenter_pairs(topo) if weights.get(p, 0.0) > 0]
     sizes, probs = size_classes(scenario.traffic)
     found = route_finder(scenario, arch)
-    routed, stream_pair, stream_rate, stream_gbps, routes = [], [], [], [], []
+    mean_load = float(np.mean(scenario.traffic.loads_erlang))
+    routed, stream_pair, stream_rate, stream_gbps, streams = [], [], [], [], []
     for n, (a, b) in enumerate(pairs):
-        route = _first_route(found, a, b)
-        routed.append(route is not None)
-        if route is None:
+        routes = _pair_routes(found, a, b)
+        routed.append(bool(routes))
+        if not routes:
             continue
+        first = geos[routes[0].cables[0]]
         for size, prob in zip(sizes, probs):
             if prob <= 0:
                 continue
-            units = tuple(units_needed(float(size), geos[c]) for c in route.cables)
+            options = tuple(
+                _option(r, units_needed(float(size), geos[r.cables[0]]), geos, fibers, arch.lane_change)
+                for r in routes
+            )
+            new, scale = (1.0, 1.0)
+            if arch.share:
+                new, scale = _grooming(float(size), first.unit_gbps, mean_load * weights[(a, b)])
             stream_pair.append(n)
-            stream_rate.append(weights[(a, b)] * prob)
+            stream_rate.append(weights[(a, b)] * prob * new)
             stream_gbps.append(float(size))
-            routes.append((tuple(route.cables), units))
+            streams.append(RoutedStream(options, scale))
     return _Model(
         capacities=capacities,
         pairs=pairs,
@@ -107,7 +145,7 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
         stream_pair=np.array(stream_pair, dtype=np.int64),
         stream_rate=np.array(stream_rate, dtype=float),
         stream_gbps=np.array(stream_gbps, dtype=float),
-        routes=routes,
+        streams=streams,
     )
 
 
@@ -128,7 +166,7 @@ def estimate_architecture(
     arch : Architecture
         The architecture to estimate.
     route_finder : callable, optional
-        ``(scenario, arch) -> {pair: [Route, ...]}``; the first route of each pair is used.
+        ``(scenario, arch) -> {pair: [Route, ...]}``; each pair tries its routes in order.
         Default: :func:`sdmnet.optics.pathtable.feasible_routes` (physically feasible routes).
 
     Returns
@@ -153,12 +191,10 @@ def estimate_architecture(
     blocked = np.where(model.routed[None, :], 0.0, offered)
     blocked_gbps = np.where(model.routed[None, :], 0.0, offered_gbps)
     iterations, converged = 0, True
-    if model.routes:
-        streams = [Stream(0.0, links, units) for links, units in model.routes]
+    if model.streams:
         stream_loads = loads[:, None] * model.stream_rate[None, :]
-        solved = reduced_load_fixed_point_batch(
-            model.capacities, streams, stream_loads, damping=_DAMPING, tol=_TOL, max_iter=_MAX_ITER
-        )
+        solved = routed_fixed_point(model.capacities, model.streams, stream_loads, damping=_DAMPING, tol=_TOL,
+                                    max_iter=_MAX_ITER)  # fmt: skip
         stream_b, iterations, converged = solved.stream_blocking, solved.iterations, solved.converged
         lost = stream_loads * stream_b
         for p in range(n_points):

@@ -118,14 +118,15 @@ def test_interrupted_then_resumed_sweep_equals_uninterrupted(tmp_path, signum):
     tasks = broken / "tasks"
     deadline = time.monotonic() + 120
     while time.monotonic() < deadline:
-        if tasks.exists() and len(list(tasks.glob("*.json"))) >= 3:
+        # "[!.]*": pathlib's glob matches hidden names too, and a task's temporary is ".tmp-KEY.json".
+        if tasks.exists() and len(list(tasks.glob("[!.]*.json"))) >= 3:
             break
         time.sleep(0.05)
     os.kill(proc.pid, signum)
     _, err = proc.communicate(timeout=60)
     assert proc.returncode == 130, err
     assert "Traceback" not in err
-    kept = list(tasks.glob("*.json"))
+    kept = list(tasks.glob("[!.]*.json"))
     assert 3 <= len(kept) < 24, "the interrupt came too late to test anything"
     assert not list(tasks.glob(".tmp-*")), "a partial task file was left behind"
     assert not (broken / "summary.csv").exists()

@@ -10,6 +10,8 @@ sdmnet's own analytic module), so the engine is checked against an independent s
 
 from __future__ import annotations
 
+import math
+from collections import Counter
 from itertools import islice
 
 import numpy as np
@@ -19,7 +21,7 @@ from builders import chain, fiber_type, scenario, shortest_routes, single_cable,
 from sdmnet.errors import ConfigurationError
 from sdmnet.inputs.model import Architecture
 from sdmnet.sim.engine import _BATCH, _arrivals, prepare, replication_seed, simulate_replication
-from sdmnet.sim.stats import ratio_interval
+from sdmnet.sim.stats import ratio_interval, t_interval
 
 
 def erlang_b(servers: int, load: float) -> float:
@@ -183,69 +185,90 @@ def test_same_seed_same_record_and_architectures_share_demands():
     assert a.sim_time == c.sim_time
 
 
+WEAK4 = fiber_type(cores=4, channels=5)
+RANDOM4 = fiber_type(name="rc", cores=4, coupling="random", coupled_group=2, channels=5)
+
+
 @pytest.mark.parametrize(
-    "arch",
+    ("arch", "fiber"),
     [
-        Architecture("ind", "independent", lane_change=False),
-        Architecture("fj2", "fractional-joint", group=2),
-        Architecture("joint", "joint"),
+        (Architecture("ind", "independent", lane_change=False), WEAK4),
+        (Architecture("fj2", "fractional-joint", group=2), WEAK4),
+        (Architecture("joint", "joint"), WEAK4),
+        (Architecture("fj2", "fractional-joint", group=2), RANDOM4),
+        (Architecture("joint", "joint"), RANDOM4),
+        (Architecture("fiber", "fiber"), RANDOM4),
     ],
 )
 # A long measured period, and a very short one after a warm-up whose last demands partly leave
 # before the first measured arrival (its peaks hang on the state that arrival finds).
 @pytest.mark.parametrize(("warmup", "requests"), [(700, 4000), (615, 3)])
-def test_time_averages_and_peaks_equal_sampling_the_state_at_every_measured_arrival(arch, warmup, requests):
-    # The engine keeps time averages by stamps and peaks at bookings; here the same figures are
-    # rebuilt by brute force from the observer's bookings and releases (Poisson arrivals see
-    # time averages: the mean over arrivals of the state each arrival finds).
-    fiber = fiber_type(cores=4, channels=5)
-    sc = scenario(weighted_datacenter_chain(fiber), [arch], loads=(9.0,), sizes=((100.0, 0.6), (200.0, 0.4)))
+def test_time_averages_peaks_and_site_histograms_equal_sampling_the_state_at_every_measured_arrival(
+    arch, fiber, warmup, requests
+):
+    # The engine keeps time averages by stamps, peaks at bookings and per-site histograms at
+    # arrivals; here the same figures are rebuilt by brute force from the observer's bookings and
+    # releases and the arrival records (Poisson arrivals see time averages: the mean over arrivals
+    # of the state each arrival finds; per site, over the arrivals of pairs that end there).
+    # Transceivers follow the fiber (docs/model.md, section 2): a demand of s Gb/s fills
+    # ceil(s / lane) lanes; on weakly coupled fiber each is a single-lane module, on fiber coupled
+    # in groups of c cores each lit group is one c-lane MIMO module.
+    lane = 100.0
+    sc = scenario(weighted_datacenter_chain(fiber), [arch], loads=(9.0,), sizes=((100.0, 0.5), (200.0, 0.3),
+                                                                                  (300.0, 0.2)), lane_gbps=lane)
     setup = prepare(sc, arch, shortest_routes)
-    lanes_per_unit = setup.route_lanes_per_unit[0][0]
+    c = fiber.coupled_group if fiber.coupling == "random" else 1
     site_of = {s: i for i, s in enumerate(setup.sites)}
-    ends = {}  # cables of a route -> its end sites (the sites met once)
-    for cables in {tuple(sorted(c)) for routes in setup.routes for c in routes}:
-        met = [site_of[s] for h in cables for s in setup.cables[h].split("-")]
-        ends[cables] = [s for s in set(met) if met.count(s) == 1]
+    records = list(islice(_arrivals(replication_seed(5, 1), setup, 9.0, range(0), np.zeros(3, dtype=np.int64),
+                                    np.zeros(len(setup.pairs), dtype=np.int64)), warmup + requests))
     busy = [0] * len(setup.cables)
-    sites = [0] * len(setup.sites)
+    sites = {"modules": [0] * len(setup.sites), "lanes": [0] * len(setup.sites)}
     totals = {"modules": 0, "lanes": 0}
-    sums = {"busy": [0] * len(busy), "sites": [0] * len(sites), "modules": 0, "lanes": 0}
-    peaks = {"modules": 0, "lanes": 0, "sites": [0] * len(sites)}
+    sums = {"busy": [0] * len(busy), "sites": [0] * len(setup.sites), "site_lanes": [0] * len(setup.sites),
+            "modules": 0, "lanes": 0}
+    peaks = {"modules": 0, "lanes": 0, "sites": [0] * len(setup.sites)}
+    histograms = {key: [Counter() for _ in setup.sites] for key in ("modules", "lanes", "mimo")}
+    held = {}  # event -> (grant, end sites, modules per end)
     arrivals = 0
 
-    def apply(grant, sign):
-        per_cable = {}
+    def apply(grant, ends, per_end, sign):
         for h, _pos, _bit in grant:
-            per_cable[h] = per_cable.get(h, 0) + 1
-        units = next(iter(per_cable.values()))
-        for h, n in per_cable.items():
-            busy[h] += sign * n
-        for s in ends[tuple(sorted(per_cable))]:
-            sites[s] += sign * units
-        totals["modules"] += sign * 2 * units
-        totals["lanes"] += sign * 2 * units * lanes_per_unit
+            busy[h] += sign
+        for s in ends:
+            sites["modules"][s] += sign * per_end
+            sites["lanes"][s] += sign * per_end * c
+        totals["modules"] += sign * 2 * per_end
+        totals["lanes"] += sign * 2 * per_end * c
 
     def note_peaks():
         for key in ("modules", "lanes"):
             peaks[key] = max(peaks[key], totals[key])
-        peaks["sites"] = [max(a, b) for a, b in zip(peaks["sites"], sites)]
+        peaks["sites"] = [max(a, b) for a, b in zip(peaks["sites"], sites["modules"])]
 
     def observe(kind, payload):
         nonlocal arrivals
         if kind == "release":
-            apply(payload.grant, -1)
+            apply(*held.pop(id(payload)), -1)
             return
+        _t, p, k, *_rest = records[arrivals]
+        ends = [site_of[s] for s in setup.pairs[p]]
         arrivals += 1
         if arrivals > warmup:  # the state this measured arrival finds
             if arrivals == warmup + 1:
                 note_peaks()
             sums["busy"] = [a + b for a, b in zip(sums["busy"], busy)]
-            sums["sites"] = [a + b for a, b in zip(sums["sites"], sites)]
+            sums["sites"] = [a + b for a, b in zip(sums["sites"], sites["modules"])]
+            sums["site_lanes"] = [a + b for a, b in zip(sums["site_lanes"], sites["lanes"])]
             sums["modules"] += totals["modules"]
             sums["lanes"] += totals["lanes"]
+            for s in ends:
+                histograms["modules"][s][sites["modules"][s]] += 1
+                histograms["lanes"][s][sites["lanes"][s]] += 1
+                histograms["mimo"][s][sites["lanes"][s] if c > 1 else 0] += 1
         if kind == "book":
-            apply(payload.grant, +1)
+            per_end = -(-math.ceil(setup.sizes_gbps[k] / lane) // c)
+            held[id(payload)] = (payload.grant, ends, per_end)
+            apply(payload.grant, ends, per_end, +1)
             if arrivals > warmup:
                 note_peaks()
 
@@ -257,8 +280,13 @@ def test_time_averages_and_peaks_equal_sampling_the_state_at_every_measured_arri
     assert rec.transceivers_mean == pytest.approx(sums["modules"] / requests, rel=1e-12)
     assert rec.lanes_mean == pytest.approx(sums["lanes"] / requests, rel=1e-12)
     assert rec.site_transceivers_mean == pytest.approx([s / requests for s in sums["sites"]], rel=1e-12)
+    assert rec.site_lanes_mean == pytest.approx([s / requests for s in sums["site_lanes"]], rel=1e-12)
     assert (rec.transceivers_peak, rec.lanes_peak) == (peaks["modules"], peaks["lanes"])
     assert rec.site_transceivers_peak == peaks["sites"]
+    for key, got in (("modules", rec.site_transceivers_histogram), ("lanes", rec.site_lanes_histogram),
+                     ("mimo", rec.site_mimo_lanes_histogram)):
+        assert got == [[[x, n] for x, n in sorted(h.items())] for h in histograms[key]], key
+    assert sum(n for _x, n in rec.site_lanes_histogram[site_of["A"]]) > 0
 
 
 def test_arrival_records_are_sequential_sums_and_offered_counts_tally_the_measured_ones():
@@ -280,3 +308,39 @@ def test_arrival_records_are_sequential_sums_and_offered_counts_tally_the_measur
     assert class_offered.tolist() == [sum(records[i][2] == k for i in measured) for k in range(3)]
     assert pair_offered.tolist() == [sum(records[i][1] == p for i in measured) for p in range(3)]
     assert all(h > 0 for *_, h in records)
+
+
+@pytest.mark.parametrize(
+    ("arch", "fiber"),
+    [
+        (Architecture("ind", "independent"), fiber_type(cores=4, channels=8)),
+        (Architecture("joint", "joint"), fiber_type(cores=4, channels=8)),
+        (Architecture("fj2-groomed", "fractional-joint", group=2, share=True), fiber_type(cores=4, channels=8)),
+        (Architecture("joint-rc2", "joint"), fiber_type(name="rc", cores=4, coupling="random", coupled_group=2,
+                                                        channels=8)),
+    ],
+)
+def test_mean_lanes_in_use_follow_littles_law_on_a_network_with_mixed_sizes(arch, fiber):
+    # Little's law (J. D. C. Little, "A proof for the queuing formula L = lambda W", Oper. Res.
+    # 9(3), 1961): demands of class k in service = carried rate x mean holding time = carried
+    # Erlang of class k, each holding 2 x (lanes per demand) lanes (one set at each end).  Lanes
+    # per demand follow the fiber (docs/model.md, section 2): ceil(s / lane) on weakly coupled
+    # fiber, whole coupled groups of c lanes on randomly coupled fiber.  Carried Erlang of class k
+    # is estimated from the counts of each replication; the engine's lane mean comes from its
+    # stamps, so the two sides are measured independently.
+    lane, load = 100.0, 14.0
+    sizes = ((100.0, 0.4), (200.0, 0.35), (300.0, 0.25))
+    sc = scenario(weighted_datacenter_chain(fiber), [arch], loads=(load,), sizes=sizes, lane_gbps=lane)
+    records = _simulate(sc, arch, load, replications=10, requests=20_000)
+    c = fiber.coupled_group if fiber.coupling == "random" else 1
+    lanes_per_demand = [c * -(-math.ceil(s / lane) // c) for s, _ in sizes]
+    differences = []
+    for r in records:
+        carried = [load * (n - b) / r.requests for n, b in zip(r.class_offered, r.class_blocked)]
+        expected = sum(2 * e * lanes for e, lanes in zip(carried, lanes_per_demand))
+        differences.append(r.lanes_mean - expected)
+    assert 0.0 < sum(r.blocked for r in records) < 0.5 * sum(r.requests for r in records)  # a loaded network
+    iv = t_interval(differences, 0.999)
+    assert iv.low <= 0.0 <= iv.high, iv
+    mean_lanes = sum(r.lanes_mean for r in records) / len(records)
+    assert abs(iv.mean) < 0.02 * mean_lanes

@@ -98,8 +98,10 @@ def test_resume_refuses_tasks_of_another_scenario(tmp_path):
 
 
 def _record() -> ReplicationRecord:
+    histogram = [[[0, 5], [1, 5]], [[0, 5], [1, 5]]]
     return ReplicationRecord("ind", 1.0, 0, 10, 1, 10.0, 1.0, [10], [1], [10], [1], 2, 1.0, 2, 1.0,
-                             [1, 1], [0.5, 0.5], [0.1], 10.0)
+                             [1, 1], [0.5, 0.5], [0.5, 0.5], histogram, histogram, [[[0, 10]], [[0, 10]]],
+                             [0.1], 10.0)
 
 
 def test_task_store_leaves_no_temporary_file(tmp_path):

@@ -69,7 +69,8 @@ class ModuleFigures:
     Attributes
     ----------
     lanes : int
-        Lanes per module (g for unit switching; 1 for fiber switching).
+        Lanes per module: the cores a randomly coupled group mixes (a MIMO module receives the
+        group whole), 1 on weakly coupled fiber (docs/model.md, section 2).
     mimo_size : int
         D of the D x D MIMO equalizer (0 when no spatial MIMO is needed).
     mimo_taps : int
@@ -91,6 +92,7 @@ class ModuleFigures:
 
 def module_figures(scenario: Scenario, arch: Architecture) -> ModuleFigures:
     """The module ``arch`` needs, from the physics of its feasible routes (worst case)."""
+    from ..optics.defaults import POLARIZATIONS
     from ..optics.pathtable import evaluated_routes
     from ..optics.physics import mimo_cmul_per_bit, module_power_w
 
@@ -98,8 +100,8 @@ def module_figures(scenario: Scenario, arch: Architecture) -> ModuleFigures:
     feasible = [phys for *_pair, found in evaluated_routes(scenario, arch) for _route, phys in found if phys.feasible]
     size = max((phys.mimo_size for phys in feasible), default=0)
     taps = max((phys.mimo_taps for phys in feasible), default=0)
-    geo = cable_geometries(scenario, arch)[0]
-    lanes = 1 if geo.whole_fiber else geo.lanes_per_unit
+    # D = 2 polarizations x the coupled cores, so the module has D / 2 lanes (1 without MIMO).
+    lanes = max(1, size // POLARIZATIONS)
     if size and taps:
         fd = mimo_cmul_per_bit(size, taps, trx, "frequency")
         td = mimo_cmul_per_bit(size, taps, trx, "time")

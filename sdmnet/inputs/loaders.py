@@ -365,6 +365,7 @@ LIMITS: dict[tuple[type, str], Limit] = {
     (TransceiverSpec, "splice_spacing_km"): _greater(0),
     (TransceiverSpec, "mimo_base_taps"): _at_least(0),
     (TransceiverSpec, "tap_margin"): _greater(0),
+    (TransceiverSpec, "overflow"): _inside_unit,
     (RunSpec, "requests"): _at_least(1),
     (RunSpec, "warmup"): _at_least(0),
     (RunSpec, "replications"): _at_least(1),

@@ -267,6 +267,10 @@ class TransceiverSpec:
         Equalizer taps needed without any modal delay spread (residual dispersion, filtering).
     tap_margin : float
         Equalizer window in units of the RMS group-delay spread.
+    overflow : float
+        Installed transceivers: each site gets the fewest modules (lanes) whose chance of being
+        all in use, with more wanted, is at most this: the smallest N with P(in use > N) <=
+        overflow (docs/model.md, section 4).
     """
 
     lane_gbps: float = defaults.LANE_GBPS
@@ -285,6 +289,9 @@ class TransceiverSpec:
     splice_spacing_km: float = defaults.SPLICE_SPACING_KM
     mimo_base_taps: int = defaults.MIMO_BASE_TAPS
     tap_margin: float = defaults.TAP_MARGIN
+    # One time in a thousand: assumption (planning choice, no source), the order of the grade of
+    # service a network is planned for.
+    overflow: float = 0.001
 
 
 Amplifier = Literal["per-core", "multicore"]

@@ -15,6 +15,7 @@ from pathlib import Path
 
 import pandas as pd
 
+from ..equipment.installed import installed_transceivers
 from ..equipment.resources import InstalledResources
 from ..inputs.model import Scenario
 from ..network.architectures import cable_geometries
@@ -50,6 +51,10 @@ SUMMARY_COLUMNS = [
     "switch_ports",
     "fiber_pairs",
     "fiber_km",
+    "transceivers_installed",
+    "transceiver_lanes_installed",
+    "carried_erlang",
+    "transceiver_mimo_lanes_installed",
     "bandwidth_blocking_ci_low",
     "bandwidth_blocking_ci_high",
     "transceivers_mean",
@@ -70,13 +75,19 @@ def summary_table(
     setups: dict[str, EngineSetup],
     resources: dict[str, InstalledResources],
 ) -> pd.DataFrame:
-    """One row per (architecture, load point), in scenario order."""
+    """One row per (architecture, load point), in scenario order.
+
+    Installed transceivers are per-site overflow quantiles summed over sites
+    (:mod:`sdmnet.equipment.installed`); carried Erlang is the offered load times the fraction of
+    requests accepted.
+    """
     rows = []
     for p in points:
         arch = scenario.architecture(p.architecture)
         setup = setups[arch.name]
         res = resources[arch.name]
         unit = cable_geometries(scenario, arch)[0]
+        installed = installed_transceivers(p, scenario.transceiver.overflow)
         rows.append(
             {
                 "architecture": arch.name,
@@ -93,6 +104,10 @@ def summary_table(
                 "switch_ports": res.switch_ports,
                 "fiber_pairs": res.fiber_pairs,
                 "fiber_km": res.fiber_km,
+                "transceivers_installed": installed.modules,
+                "transceiver_lanes_installed": installed.lanes,
+                "carried_erlang": p.load_erlang * (1.0 - p.blocking.mean),
+                "transceiver_mimo_lanes_installed": installed.mimo_lanes,
                 "bandwidth_blocking_ci_low": p.bandwidth_blocking.low,
                 "bandwidth_blocking_ci_high": p.bandwidth_blocking.high,
                 "transceivers_mean": p.transceivers_mean,
@@ -184,6 +199,7 @@ def site_table(
     for p in points:
         setup = setups[p.architecture]
         ports = resources[p.architecture].site_switch_ports
+        installed = installed_transceivers(p, scenario.transceiver.overflow)
         for i, site in enumerate(setup.sites):
             rows.append(
                 {
@@ -192,8 +208,12 @@ def site_table(
                     "site": site,
                     "role": roles[site],
                     "switch_ports": ports[site],
+                    "transceivers_installed": installed.site_modules[i],
+                    "transceiver_lanes_installed": installed.site_lanes[i],
+                    "transceiver_mimo_lanes_installed": installed.site_mimo_lanes[i],
                     "transceivers_peak": p.site_transceivers_peak[i],
                     "transceivers_mean": p.site_transceivers_mean[i],
+                    "transceiver_lanes_mean": p.site_lanes_mean[i],
                 }
             )
     return pd.DataFrame(rows)

@@ -24,6 +24,7 @@ from __future__ import annotations
 import gc
 import math
 import time
+from collections import Counter, defaultdict
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import asdict, dataclass, field
@@ -68,8 +69,12 @@ class EngineSetup:
         Per pair, the feasible routes in order, each as its cable indices.
     route_units : tuple of tuple of tuple of int
         Per pair and route, units needed by each size class.
-    route_unit_gbps, route_lanes_per_unit : tuple of tuple
-        Per pair and route: capacity and lanes of one unit (the unit is uniform along a route).
+    route_unit_gbps : tuple of tuple
+        Per pair and route: capacity of one unit (the unit is uniform along a route).
+    route_lanes_per_module : tuple of tuple
+        Per pair and route: lanes of one transceiver module, the cores the route's randomly
+        coupled fiber mixes together (1 on weakly coupled fiber: single-lane modules;
+        :func:`sdmnet.optics.physics.mimo_group`).
     sizes_gbps : tuple of float
         Size classes, ascending.
     size_cumulative : tuple of float
@@ -77,7 +82,7 @@ class EngineSetup:
     whole_fiber : bool
         Fiber switching (units are fibers; modules are counted per demand).
     lane_gbps : float
-        Lane rate (fiber switching: modules per demand = ceil(size / lane)).
+        Lane rate (a demand of s Gb/s fills ceil(s / lane) lanes).
     mean_holding : float
         Mean holding time.
     """
@@ -94,7 +99,7 @@ class EngineSetup:
     routes: tuple[tuple[tuple[int, ...], ...], ...]
     route_units: tuple[tuple[tuple[int, ...], ...], ...]
     route_unit_gbps: tuple[tuple[float, ...], ...]
-    route_lanes_per_unit: tuple[tuple[int, ...], ...]
+    route_lanes_per_module: tuple[tuple[int, ...], ...]
     sizes_gbps: tuple[float, ...]
     size_cumulative: tuple[float, ...]
     whole_fiber: bool
@@ -113,7 +118,10 @@ class ReplicationRecord:
 
     Counts are over the measured arrivals; ``*_mean`` figures are time averages estimated
     from the state seen by arrivals (Poisson arrivals see time averages); ``*_peak`` figures
-    are maxima over the measured period.
+    are maxima over the measured period.  ``site_*_histogram`` give, per site, how often each
+    count of transceiver modules, lanes, and lanes of MIMO modules in use was seen by the
+    measured arrivals of the pairs that end at the site, as sorted ``[count, arrivals]`` pairs
+    (those arrivals are a Poisson stream too, so they see the site's time-average distribution).
     """
 
     architecture: str
@@ -133,6 +141,10 @@ class ReplicationRecord:
     lanes_mean: float
     site_transceivers_peak: list[int]
     site_transceivers_mean: list[float]
+    site_lanes_mean: list[float]
+    site_transceivers_histogram: list[list[list[int]]]
+    site_lanes_histogram: list[list[list[int]]]
+    site_mimo_lanes_histogram: list[list[list[int]]]
     cable_utilisation: list[float]
     sim_time: float
     wall_time_s: float = field(default=0.0, compare=False)
@@ -175,6 +187,8 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
     ConfigurationError
         If the architecture cannot run on a cable's fiber type.
     """
+    from ..optics.physics import mimo_group
+
     topo = scenario.topology_for(arch)
     lane = scenario.transceiver.lane_gbps
     geometries = cable_geometries(scenario, arch)
@@ -192,7 +206,7 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
             geo = geometries[r[0]]
             units.append(tuple(units_needed(float(s), geo) for s in sizes))
             gbps.append(geo.unit_gbps)
-            lanes.append(geo.lanes_per_unit)
+            lanes.append(mimo_group([topo.fiber_types[topo.cables[h].fiber_type] for h in r]))
         route_units.append(tuple(units))
         route_gbps.append(tuple(gbps))
         route_lanes.append(tuple(lanes))
@@ -210,7 +224,7 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
         routes=tuple(routes),
         route_units=tuple(route_units),
         route_unit_gbps=tuple(route_gbps),
-        route_lanes_per_unit=tuple(route_lanes),
+        route_lanes_per_module=tuple(route_lanes),
         sizes_gbps=tuple(float(s) for s in sizes),
         size_cumulative=tuple(np.cumsum(probs).tolist()),
         whole_fiber=geometries[0].whole_fiber if geometries else False,
@@ -231,19 +245,22 @@ def _arrivals(
     measured: range,
     class_offered: np.ndarray,
     pair_offered: np.ndarray,
-) -> Iterator[tuple[float, int, int, float]]:
-    """Endless ``(time, pair, size class, holding time)`` arrival records.
+) -> Iterator[tuple[float, int, int, int, int, float]]:
+    """Endless ``(time, pair, size class, site a, site b, holding time)`` arrival records.
 
     Record ``i`` comes from draw ``i`` of four independent generators (interarrival gaps, pairs,
     sizes, holding times), drawn in batches of :data:`_BATCH` with numpy.  The records of a batch
     come from a ``zip`` chained in C, so an arrival costs one tuple.  While drawing, the records
     whose index lies in ``measured`` are tallied into ``class_offered`` and ``pair_offered``
-    (offered counts need no work per arrival).
+    (offered counts need no work per arrival).  The end sites of the pair ride along, looked up
+    per batch.
     """
     gap_rng, pair_rng, size_rng, hold_rng = (np.random.default_rng(s) for s in seq.spawn(4))
     pair_cum, size_cum = np.asarray(setup.pair_cumulative), np.asarray(setup.size_cumulative)
+    ends = np.asarray(setup.pair_sites, dtype=np.int64).reshape(-1, 2)
+    site_a, site_b = ends[:, 0], ends[:, 1]
 
-    def batches() -> Iterator[Iterator[tuple[float, int, int, float]]]:
+    def batches() -> Iterator[Iterator[tuple[float, int, int, int, int, float]]]:
         clock, first = 0.0, 0
         while True:
             gaps = gap_rng.standard_exponential(_BATCH) / rate
@@ -259,7 +276,10 @@ def _arrivals(
                 class_offered[:] += np.bincount(sizes[low:high], minlength=len(class_offered))
                 pair_offered[:] += np.bincount(pairs[low:high], minlength=len(pair_offered))
             first += _BATCH
-            yield zip(times.tolist(), pairs.tolist(), sizes.tolist(), holds.tolist())
+            yield zip(
+                times.tolist(), pairs.tolist(), sizes.tolist(), site_a[pairs].tolist(), site_b[pairs].tolist(),
+                holds.tolist(),
+            )
 
     return chain.from_iterable(batches())
 
@@ -319,35 +339,118 @@ class _Departure(simpy.events.Event):
 class _LitUnit:
     """A unit lit between two sites on one route whose spare capacity later demands may use.
 
-    Under unit switching the unit owns its transceiver modules (``modules``, ``lanes``): they
-    stay lit until the last demand it carries departs.
+    Under unit switching the unit owns its transceiver modules: ``modules`` at each end, of
+    ``lanes_per_module`` lanes, as many as the capacity it carries fills (see
+    :func:`modules_per_end`); they follow its fill and go dark when the last demand departs.
+    Under fiber switching ``lanes_per_module`` is 0: the modules belong to the demands.
     """
 
-    __slots__ = ("grant", "spare", "used", "key", "modules", "lanes", "cables")
+    __slots__ = ("grant", "spare", "used", "key", "modules", "lanes_per_module", "cables")
 
     def __init__(
-        self, grant: Grant, spare: float, key: tuple[int, int], modules: int, lanes: int, cables: tuple[int, ...]
+        self, grant: Grant, spare: float, key: tuple[int, int], lanes_per_module: int, cables: tuple[int, ...]
     ) -> None:
         self.grant = grant
         self.spare = spare
         self.used = 0.0
         self.key = key
-        self.modules = modules
-        self.lanes = lanes
+        self.modules = 0
+        self.lanes_per_module = lanes_per_module
         self.cables = cables
 
 
-_BookingKind = tuple[int, int, int, int, int, int]
+def modules_per_end(gbps: float, lane_gbps: float, lanes_per_module: int) -> int:
+    """Transceiver modules lit at each end to carry ``gbps``: the lanes it fills,
+    ceil(gbps / lane), in modules of ``lanes_per_module`` lanes (docs/model.md, section 2).
+
+    On weakly coupled fiber (``lanes_per_module = 1``) only the filled lanes are lit, whatever
+    the switching unit; the rest of a joint unit is stranded capacity.  A randomly coupled group
+    of c cores is received whole by one c-lane MIMO module, so a demand lights whole groups.
+    """
+    if gbps <= 1e-9:
+        return 0
+    lanes = max(1, math.ceil(gbps / lane_gbps - 1e-9))
+    return -(-lanes // lanes_per_module)
 
 
-def _route_table(setup: EngineSetup) -> tuple[list, list[tuple[tuple[int, ...], int, _BookingKind]]]:
+# A site's figure in the engine is one integer per site.  Where every route ending at the site
+# uses modules of the same c lanes (the usual case) it is the lanes in use, and modules are
+# lanes / c.  Elsewhere it packs modules, lanes and lanes of MIMO modules into fields of
+# _FIELD: linear, so bookings add and subtract it, and ordered by modules first, so its peak is
+# the peak of modules.  Sums over arrivals stay far below _FIELD.
+_FIELD = 1 << 64
+
+
+class _SiteCoding:
+    """How the engine's per-site integer stands for modules, lanes and MIMO lanes (see above).
+
+    Parameters
+    ----------
+    lanes_per_module : list of int
+        Per site: the lanes of every module used there, or 0 where routes ending there differ.
+    """
+
+    def __init__(self, lanes_per_module: list[int]) -> None:
+        self.lanes_per_module = lanes_per_module
+
+    @classmethod
+    def for_setup(cls, setup: EngineSetup) -> _SiteCoding:
+        seen: list[set[int]] = [set() for _ in setup.sites]
+        for (a, b), per_route in zip(setup.pair_sites, setup.route_lanes_per_module):
+            seen[a].update(per_route)
+            seen[b].update(per_route)
+        return cls([next(iter(s)) if len(s) == 1 else (1 if not s else 0) for s in seen])
+
+    def code(self, site: int, modules: int, lanes_per_module: int) -> int:
+        """The site's figure for ``modules`` modules of ``lanes_per_module`` lanes (may be < 0)."""
+        lanes = modules * lanes_per_module
+        if self.lanes_per_module[site]:
+            return lanes
+        return (modules * _FIELD + lanes) * _FIELD + (lanes if lanes_per_module > 1 else 0)
+
+    def decode(self, site: int, value: int) -> tuple[int, int, int]:
+        """``(modules, lanes, MIMO lanes)`` of a non-negative figure (or sum of figures)."""
+        c = self.lanes_per_module[site]
+        if c:
+            return value // c, value, value if c > 1 else 0
+        modules, rest = divmod(value, _FIELD * _FIELD)
+        lanes, mimo = divmod(rest, _FIELD)
+        return modules, lanes, mimo
+
+    def empty_histogram(self, site: int) -> list[int] | defaultdict[int, int]:
+        """A histogram indexed by the site's figure: a list, or a dict for packed figures."""
+        return [0] * 16 if self.lanes_per_module[site] else defaultdict(int)
+
+    def histograms(self, site: int, counts: list[int] | defaultdict[int, int]) -> tuple[list, list, list]:
+        """Sparse ``[[count, arrivals], ...]`` histograms of modules, lanes and MIMO lanes."""
+        items = enumerate(counts) if isinstance(counts, list) else counts.items()
+        out: tuple[Counter, Counter, Counter] = (Counter(), Counter(), Counter())
+        for value, n in items:
+            if n:
+                for part, x in zip(out, self.decode(site, value)):
+                    part[x] += n
+        return tuple([[x, part[x]] for x in sorted(part)] for part in out)  # type: ignore[return-value]
+
+
+def _tally_grown(histogram: list[int], value: int) -> None:
+    """Count ``value`` in a list histogram too short for it (grown by doubling)."""
+    histogram.extend([0] * (max(value + 1, 2 * len(histogram)) - len(histogram)))
+    histogram[value] += 1
+
+
+_BookingKind = tuple[int, int, int, int, int, int, int]
+
+
+def _route_table(
+    setup: EngineSetup, coding: _SiteCoding
+) -> tuple[list, list[tuple[tuple[int, ...], int, _BookingKind]]]:
     """Per pair, per route in order, ``(cables, units, kinds)``; and every kind with its cables and units.
 
     ``units`` and ``kinds`` are per size class.  A booking *kind* is one (pair, route, size class):
-    ``(index, modules, lanes, a, b, half)`` with the transceiver modules and lanes a demand of that
-    kind holds (both ends together), the site indices of its ends and the modules at each end.
-    Under fiber switching modules follow from the size alone: ceil(size / lane) single-lane
-    modules per end (docs/model.md, section 2).  The second list, indexed by kind, gives
+    ``(index, modules, lanes, a, b, code_a, code_b)`` with the transceiver modules and lanes a
+    demand of that kind holds (both ends together), the site indices of its ends and what it adds
+    to each end's figure (:class:`_SiteCoding`).  Modules follow the lanes the demand fills, not
+    the unit (:func:`modules_per_end`).  The second list, indexed by kind, gives
     ``(cables, units, kind)`` for turning per-kind stamps into per-cable figures.
     """
     table, kinds = [], []
@@ -356,13 +459,12 @@ def _route_table(setup: EngineSetup) -> tuple[list, list[tuple[tuple[int, ...], 
         rows = []
         for r, cables in enumerate(routes):
             units = tuple(setup.route_units[p][r])
+            c = setup.route_lanes_per_module[p][r]
             route_kinds = []
             for size, n in zip(setup.sizes_gbps, units):
-                if setup.whole_fiber:
-                    modules = lanes = 2 * max(1, math.ceil(size / setup.lane_gbps - 1e-9))
-                else:
-                    modules, lanes = 2 * n, 2 * n * setup.route_lanes_per_unit[p][r]
-                kind = (len(kinds), modules, lanes, a, b, modules // 2)
+                per_end = modules_per_end(size, setup.lane_gbps, c)
+                kind = (len(kinds), 2 * per_end, 2 * per_end * c, a, b, coding.code(a, per_end, c),
+                        coding.code(b, per_end, c))
                 kinds.append((tuple(cables), n, kind))
                 route_kinds.append(kind)
             rows.append((tuple(cables), units, tuple(route_kinds)))
@@ -464,17 +566,20 @@ def simulate_replication(
     busy = state.busy_units
     share = arch.share
     whole_fiber = setup.whole_fiber
-    route_table, kinds = _route_table(setup)
-    route_gbps, route_lanes = setup.route_unit_gbps, setup.route_lanes_per_unit
-    pair_sites = setup.pair_sites
+    coding = _SiteCoding.for_setup(setup)
+    code = coding.code
+    route_table, kinds = _route_table(setup, coding)
+    route_gbps, route_lanes = setup.route_unit_gbps, setup.route_lanes_per_module
+    lane_gbps = setup.lane_gbps
 
     class_blocked = [0] * nclass
     pair_blocked = [0] * npair
-    site_modules = [0] * nsite
+    site_state = [0] * nsite  # each site's figure (_SiteCoding): lanes, or packed counts
     site_peak = [0] * nsite
     site_stamp = [0] * nsite
     cable_stamp = [0] * ncable
     kind_stamp = [0] * len(kinds)
+    hist = [coding.empty_histogram(s) for s in range(nsite)]
     m = -warmup  # measured arrivals so far; counts up to 0 through the warm-up
     modules = lanes = modules_peak = lanes_peak = modules_stamp = lanes_stamp = 0
     blocked_gbps = 0.0
@@ -482,45 +587,58 @@ def simulate_replication(
 
     def release_own(event: _Departure) -> None:
         nonlocal modules, lanes
-        grant, (j, d_modules, d_lanes, a, b, half) = event.booking
+        grant, (j, d_modules, d_lanes, a, b, code_a, code_b) = event.booking
         give_back(grant)
         kind_stamp[j] += m
         modules -= d_modules
         lanes -= d_lanes
-        site_modules[a] -= half
-        site_modules[b] -= half
+        site_state[a] -= code_a
+        site_state[b] -= code_b
         if observer is not None:
             observer("release", event)
 
-    def change_modules(a: int, b: int, d_modules: int, d_lanes: int) -> None:
+    def change_modules(a: int, b: int, per_end: int, lanes_per_module: int) -> None:
         # Demands on shared units only: their modules change with the lit units, not per kind.
         nonlocal modules, lanes, modules_stamp, lanes_stamp, modules_peak, lanes_peak
+        d_modules = 2 * per_end
+        d_lanes = d_modules * lanes_per_module
         modules += d_modules
         lanes += d_lanes
         modules_stamp -= d_modules * m
         lanes_stamp -= d_lanes * m
-        half = d_modules // 2
-        site_modules[a] += half
-        site_modules[b] += half
-        site_stamp[a] -= half * m
-        site_stamp[b] -= half * m
+        code_a, code_b = code(a, per_end, lanes_per_module), code(b, per_end, lanes_per_module)
+        site_state[a] += code_a
+        site_state[b] += code_b
+        site_stamp[a] -= code_a * m
+        site_stamp[b] -= code_b * m
         modules_peak = max(modules_peak, modules)
         lanes_peak = max(lanes_peak, lanes)
-        site_peak[a] = max(site_peak[a], site_modules[a])
-        site_peak[b] = max(site_peak[b], site_modules[b])
+        site_peak[a] = max(site_peak[a], site_state[a])
+        site_peak[b] = max(site_peak[b], site_state[b])
+
+    def refill(unit: _LitUnit, a: int, b: int) -> None:
+        # A lit unit's modules follow the capacity it carries (unit switching only).
+        c = unit.lanes_per_module
+        if c:
+            per_end = modules_per_end(unit.used, lane_gbps, c)
+            if per_end != unit.modules:
+                change_modules(a, b, per_end - unit.modules, c)
+                unit.modules = per_end
 
     def release_shared(event: _Departure) -> None:
-        _grant, (d_modules, d_lanes, a, b, parts) = event.booking
+        _grant, (per_end, c, a, b, parts) = event.booking
         for unit, amount in parts:
             unit.used -= amount
             unit.spare += amount
             if unit.used <= 1e-9:
+                unit.used = 0.0
                 give_back(unit.grant)
                 for h in unit.cables:
                     cable_stamp[h] += m
                 lit[unit.key].remove(unit)
-                change_modules(a, b, -unit.modules, -unit.lanes)
-        change_modules(a, b, -d_modules, -d_lanes)
+            refill(unit, a, b)
+        if per_end:
+            change_modules(a, b, -per_end, c)
         if observer is not None:
             observer("release", event)
 
@@ -549,36 +667,34 @@ def simulate_replication(
                     break
                 grants.append(g)
             else:
-                return light_units(p, r, cables, route_kinds[k][1], plan, need, grants)
+                return light_units(p, r, cables, route_kinds[k][1] // 2, plan, need, grants)
         return None
 
     def light_units(
-        p: int, r: int, cables: tuple[int, ...], fiber_modules: int, plan: list, need: float, grants: list
+        p: int, r: int, cables: tuple[int, ...], per_end: int, plan: list, need: float, grants: list
     ) -> tuple:
-        for unit, amount in plan:
-            unit.spare -= amount
-            unit.used += amount
-        a, b = pair_sites[p]
+        a, b = setup.pair_sites[p]
         gbps = route_gbps[p][r]
-        unit_lanes = 0 if whole_fiber else 2 * route_lanes[p][r]
-        unit_modules = 0 if whole_fiber else 2
+        c = route_lanes[p][r]
         units = lit[(p, r)]
         for g in grants:
-            unit = _LitUnit(g, gbps, (p, r), unit_modules, unit_lanes, cables)
+            unit = _LitUnit(g, gbps, (p, r), 0 if whole_fiber else c, cables)
             for h in cables:
                 cable_stamp[h] -= m
-            change_modules(a, b, unit_modules, unit_lanes)
             amount = min(gbps, need)
-            unit.spare -= amount
-            unit.used += amount
             need -= amount
             units.append(unit)
             plan.append((unit, amount))
-        # Fiber switching: single-lane modules per demand, whatever fiber carries it; unit
-        # switching: the modules belong to the lit units (counted above).
-        d_modules = fiber_modules if whole_fiber else 0
-        change_modules(a, b, d_modules, d_modules)
-        return ([], (d_modules, d_modules, a, b, plan))
+        for unit, amount in plan:
+            unit.spare -= amount
+            unit.used += amount
+            refill(unit, a, b)
+        # Fiber switching: the demand's own modules, whatever fiber carries it; unit switching:
+        # the modules belong to the lit units (refilled above).
+        per_end = per_end if whole_fiber else 0
+        if per_end:
+            change_modules(a, b, per_end, c)
+        return ([], (per_end, c, a, b, plan))
 
     departure = _Departure.for_run(env, release_shared if share else release_own)
     # Arrivals are a plain loop over the records; departures are events on SimPy's queue, and
@@ -599,14 +715,24 @@ def simulate_replication(
                     step()
                 records = chain((first,), records)
             modules_peak, lanes_peak = modules, lanes
-            site_peak[:] = site_modules
+            site_peak[:] = site_state
             modules_stamp = lanes_stamp = 0
             for stamps in (site_stamp, cable_stamp, kind_stamp):
                 stamps[:] = [0] * len(stamps)
-        for t, p, k, hold in records:
+            hist = [coding.empty_histogram(s) for s in range(nsite)]
+        for t, p, k, a, b, hold in records:
             while peek() <= t:
                 step()
             m += 1
+            # What this arrival finds at its two end sites (Poisson arrivals see time averages).
+            try:
+                hist[a][site_state[a]] += 1
+            except IndexError:
+                _tally_grown(hist[a], site_state[a])
+            try:
+                hist[b][site_state[b]] += 1
+            except IndexError:
+                _tally_grown(hist[b], site_state[b])
             if share:
                 booking = book_shared(p, k)
             else:
@@ -614,20 +740,20 @@ def simulate_replication(
                     grant = take(cables, units[k])
                     if grant is not None:
                         kind = route_kinds[k]
-                        j, d_modules, d_lanes, a, b, half = kind
+                        j, d_modules, d_lanes, _a, _b, code_a, code_b = kind
                         kind_stamp[j] -= m
                         modules += d_modules
                         lanes += d_lanes
-                        site_modules[a] += half
-                        site_modules[b] += half
+                        site_state[a] += code_a
+                        site_state[b] += code_b
                         if modules > modules_peak:
                             modules_peak = modules
                         if lanes > lanes_peak:
                             lanes_peak = lanes
-                        if site_modules[a] > site_peak[a]:
-                            site_peak[a] = site_modules[a]
-                        if site_modules[b] > site_peak[b]:
-                            site_peak[b] = site_modules[b]
+                        if site_state[a] > site_peak[a]:
+                            site_peak[a] = site_state[a]
+                        if site_state[b] > site_peak[b]:
+                            site_peak[b] = site_state[b]
                         booking = (grant, kind)
                         break
                 else:
@@ -649,18 +775,19 @@ def simulate_replication(
     end_time = max(t, env.now)
 
     # Spread the kinds' stamps over the cables, sites and totals they stand for.
-    for (cables, units, (_j, d_modules, d_lanes, a, b, half)), stamp in zip(kinds, kind_stamp):
+    for (cables, units, (_j, d_modules, d_lanes, a, b, code_a, code_b)), stamp in zip(kinds, kind_stamp):
         if stamp:
             for h in cables:
                 cable_stamp[h] += units * stamp
             modules_stamp += d_modules * stamp
             lanes_stamp += d_lanes * stamp
-            site_stamp[a] += half * stamp
-            site_stamp[b] += half * stamp
+            site_stamp[a] += code_a * stamp
+            site_stamp[b] += code_b * stamp
     measured = max(requests, 1)
     capacity = [state.capacity_units(i) for i in range(ncable)]
     cable_sum = [busy[h] * m + cable_stamp[h] for h in range(ncable)]
-    site_sum = [site_modules[s] * m + site_stamp[s] for s in range(nsite)]
+    site_sums = [coding.decode(s, site_state[s] * m + site_stamp[s]) for s in range(nsite)]
+    site_histograms = [coding.histograms(s, hist[s]) for s in range(nsite)]
     offered = class_offered.tolist()
     return ReplicationRecord(
         architecture=arch.name,
@@ -678,10 +805,14 @@ def simulate_replication(
         transceivers_mean=(modules * m + modules_stamp) / measured,
         lanes_peak=lanes_peak,
         lanes_mean=(lanes * m + lanes_stamp) / measured,
-        site_transceivers_peak=list(site_peak),
-        site_transceivers_mean=[x / measured for x in site_sum],
+        site_transceivers_peak=[coding.decode(s, site_peak[s])[0] for s in range(nsite)],
+        site_transceivers_mean=[x[0] / measured for x in site_sums],
+        site_lanes_mean=[x[1] / measured for x in site_sums],
+        site_transceivers_histogram=[h[0] for h in site_histograms],
+        site_lanes_histogram=[h[1] for h in site_histograms],
+        site_mimo_lanes_histogram=[h[2] for h in site_histograms],
         cable_utilisation=[a / measured / cap if cap else 0.0 for a, cap in zip(cable_sum, capacity)],
         sim_time=float(end_time),
         wall_time_s=time.perf_counter() - started,
-        ended_empty=(state.is_empty() and modules == 0 and lanes == 0 and not any(site_modules)) if drain else None,
+        ended_empty=(state.is_empty() and modules == 0 and lanes == 0 and not any(site_state)) if drain else None,
     )

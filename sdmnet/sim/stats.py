@@ -60,7 +60,11 @@ def ratio_interval(numerators: Sequence[float], denominators: Sequence[float], c
 
 @dataclass(frozen=True)
 class PointSummary:
-    """One (architecture, load) point aggregated over its replications."""
+    """One (architecture, load) point aggregated over its replications.
+
+    ``site_*_histogram`` pool the replications' per-site histograms (count in use -> arrivals
+    that saw it); :mod:`sdmnet.equipment.installed` turns them into installed counts.
+    """
 
     architecture: str
     load_erlang: float
@@ -81,6 +85,10 @@ class PointSummary:
     lanes_mean: float
     site_transceivers_peak: tuple[int, ...]
     site_transceivers_mean: tuple[float, ...]
+    site_lanes_mean: tuple[float, ...]
+    site_transceivers_histogram: tuple[dict[int, int], ...]
+    site_lanes_histogram: tuple[dict[int, int], ...]
+    site_mimo_lanes_histogram: tuple[dict[int, int], ...]
     cable_utilisation: tuple[float, ...]
 
 
@@ -88,7 +96,8 @@ def summarize_point(records: Sequence[ReplicationRecord], confidence: float = 0.
     """Aggregate the replications of one (architecture, load) point.
 
     Peaks are the maximum over replications (a planner sizes for the worst one seen); means
-    are averaged over replications.
+    are averaged over replications; per-site histograms are pooled (every replication samples
+    the same distribution).
     """
     if not records:
         raise ValueError("no replications to summarize")
@@ -121,5 +130,19 @@ def summarize_point(records: Sequence[ReplicationRecord], confidence: float = 0.
         lanes_mean=float(np.mean([r.lanes_mean for r in recs])),
         site_transceivers_peak=tuple(int(x) for x in np.max([r.site_transceivers_peak for r in recs], axis=0)),
         site_transceivers_mean=tuple(float(x) for x in np.mean([r.site_transceivers_mean for r in recs], axis=0)),
+        site_lanes_mean=tuple(float(x) for x in np.mean([r.site_lanes_mean for r in recs], axis=0)),
+        site_transceivers_histogram=_pooled([r.site_transceivers_histogram for r in recs]),
+        site_lanes_histogram=_pooled([r.site_lanes_histogram for r in recs]),
+        site_mimo_lanes_histogram=_pooled([r.site_mimo_lanes_histogram for r in recs]),
         cable_utilisation=tuple(float(x) for x in np.mean([r.cable_utilisation for r in recs], axis=0)),
     )
+
+
+def _pooled(per_replication: Sequence[Sequence[Sequence[Sequence[int]]]]) -> tuple[dict[int, int], ...]:
+    """Per site, the sum of the replications' sparse ``[[count, arrivals], ...]`` histograms."""
+    pooled: list[dict[int, int]] = [{} for _ in per_replication[0]]
+    for histograms in per_replication:
+        for site, histogram in zip(pooled, histograms):
+            for value, n in histogram:
+                site[int(value)] = site.get(int(value), 0) + int(n)
+    return tuple(dict(sorted(site.items())) for site in pooled)

@@ -16,6 +16,7 @@ import pandas as pd
 
 from .analysis.compare import attach_estimate
 from .analysis.estimate import estimate as estimate_scenario
+from .equipment.costs import unit_prices
 from .equipment.resources import InstalledResources, installed_resources, module_figures
 from .errors import InputError
 from .inputs.model import Scenario
@@ -128,8 +129,10 @@ def simulate(
     bar = Progress(len(tasks), "simulate") if progress else None
     records = run_sweep(scenario, store, tasks=tasks, jobs=jobs, scheduler=scheduler, resume=resume, progress=bar)
     points, resources = summarize_records(scenario, records)
-    summary = summary_table(scenario, points, setups, resources)
-    summary = add_module_columns(summary, {a.name: module_figures(scenario, a) for a in scenario.architectures})
+    modules = {a.name: module_figures(scenario, a) for a in scenario.architectures}
+    prices = {name: unit_prices(scenario, module) for name, module in modules.items()}
+    summary = summary_table(scenario, points, setups, resources, prices)
+    summary = add_module_columns(summary, modules)
     estimate_net, _ = estimate_scenario(scenario)
     summary = attach_estimate(summary, estimate_net, setups)
     classes = class_table(points, setups)

@@ -74,6 +74,22 @@ def test_bad_input_gives_one_line_and_status_2(tmp_path):
     assert "Traceback" not in proc.stderr
 
 
+@pytest.mark.parametrize(
+    ("section", "line", "message"),
+    [
+        ("costs", "wss_port = 0.2", "costs: unknown key 'wss_port' (did you mean 'wss_port_core'?)"),
+        ("power", "fiber_xc_port = -1.0", "power.fiber_xc_port: must be >= 0, got -1"),
+    ],
+)
+def test_bad_cost_or_power_item_gives_one_line_and_status_2(tmp_path, section, line, message):
+    scen = _scenario(tmp_path)
+    scen.write_text(scen.read_text() + f"\n[{section}]\n{line}\n")
+    proc = _run("simulate", str(scen), "-o", str(tmp_path / "out"))
+    assert proc.returncode == 2
+    assert proc.stderr.strip().splitlines() == [f"error: {scen}: {message}"]
+    assert not (tmp_path / "out").exists()
+
+
 def test_bad_option_gives_one_line_and_status_2(tmp_path):
     proc = _run("simulate", str(_scenario(tmp_path)), "--jobs", "zero")
     assert proc.returncode == 2

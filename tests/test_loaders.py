@@ -558,6 +558,31 @@ BAD_SCENARIOS = [
         scenario_with('pattern = "uniform"', 'pattern = "uniform"\nmatrix = "m.csv"'),
         "traffic.matrix: only used with pattern = 'matrix', but pattern is 'uniform'",
     ),
+    Bad(
+        "unknown-cost-item-suggested",
+        scenario_with("[plan]", "[costs]\ntransceiver_lanes = 2.0\n\n[plan]"),
+        "costs: unknown key 'transceiver_lanes' (did you mean 'transceiver_lane'?)",
+    ),
+    Bad(
+        "unknown-power-item-suggested",
+        scenario_with("[plan]", "[power]\namplifer_core = 12\n\n[plan]"),
+        "power: unknown key 'amplifer_core' (did you mean 'amplifier_core'?)",
+    ),
+    Bad(
+        "negative-price",
+        scenario_with("[plan]", "[costs]\ncable_km = -1\n\n[plan]"),
+        "costs.cable_km: must be >= 0, got -1",
+    ),
+    Bad(
+        "negative-watts",
+        scenario_with("[plan]", "[power]\nwss_port_core = -0.5\n\n[plan]"),
+        "power.wss_port_core: must be >= 0, got -0.5",
+    ),
+    Bad(
+        "overflow-outside-unit",
+        scenario_with("lane_gbps = 100", "lane_gbps = 100\noverflow = 0"),
+        "transceiver.overflow: must be between 0 and 1 (exclusive), got 0",
+    ),
 ]
 
 

@@ -124,13 +124,22 @@ def test_plan_files_have_the_contract_columns(tmp_path):
     pair_km = sum(r.fiber_pairs * lengths[r.cable] for r in plan.itertuples())
     assert row["fiber_pairs"] == plan["fiber_pairs"].sum()
     assert row["fiber_km"] == pytest.approx(2 * pair_km)  # strands: 2 per pair
-    # Cost from the unit prices given (switch ports unpriced here).
-    assert row["cost"] == pytest.approx(2.0 * pair_km + 3.0 * row["transceiver_lanes_peak"])
+    # An older scenario's [plan.unit_costs] prices its items in cost.csv; the rest keep defaults.
+    cost = pd.read_csv(tmp_path / "cost.csv").set_index("item")
+    assert cost.loc["fiber_pair_km", "count"] == pytest.approx(pair_km)
+    assert cost.loc["fiber_pair_km", "unit_cost"] == 2.0
+    assert cost.loc["transceiver_lane", "unit_cost"] == 3.0
+    assert cost.loc["transceiver_lane", "count"] == row["transceiver_lanes_installed"]
+    assert cost.loc["total", "cost"] == pytest.approx(row["cost"])
+    assert row["switch_ports"] == row["switch_ports_line"] + row["switch_ports_add_drop"]
+    assert row["switch_ports_add_drop"] == row["transceivers_installed"]
     sites = pd.read_csv(tmp_path / "plan_sites.csv")
     assert set(sites["site"]) == {"A", "B", "C"}
     # Independent switching on single-core fiber: one port per fiber pair at each end.
     ports_b = plan["fiber_pairs"].sum()
-    assert int(sites.loc[sites["site"] == "B", "switch_ports"].iloc[0]) == ports_b
+    site_b = sites.loc[sites["site"] == "B"].iloc[0]
+    assert int(site_b["switch_ports_line"]) == ports_b
+    assert int(site_b["switch_ports"]) == ports_b + int(site_b["transceivers_installed"])
 
 
 def test_per_pair_plan_keeps_every_pair_under_target():

@@ -1,9 +1,17 @@
 """Installed resources that follow from the topology and the architecture, not from traffic.
 
-Switch ports count line-side ports: every fiber of a cable ending at a site occupies
-``ports_per_fiber`` ports of that site's switch (docs/model.md, section 2), counting one duplex port
-per fiber pair (common practice, no source: a duplex port terminates a fiber pair).
-Fiber-km counts strands: 2 x fiber pairs x length.
+Line-side switch ports: every fiber of a cable ending at a site occupies ``ports_per_fiber``
+ports of that site's switch (docs/model.md, section 2), counting one duplex port per fiber pair
+(common practice, no source: a duplex port terminates a fiber pair); their kind follows the
+unit: a per-core wavelength-selective port for single-core units, a per-group port for
+superchannels, a fiber cross-connect port under fiber switching.  Add/drop ports depend on the
+traffic and are counted with the installed transceivers (:mod:`sdmnet.equipment.costs`).
+
+Fan-in/fan-out devices: one at each end of every fiber whose cores are switched apart (more than
+one unit position across the cores), since the switch needs each core (group) on its own port.
+Amplifiers: ``ceil(length / span_km)`` per fiber strand of a cable (:func:`sdmnet.optics.line.span_count`),
+one per core with ``[line] amplifier = "per-core"``, one per fiber with ``"multicore"``.
+Fiber-km counts strands: 2 x fiber pairs x length; fiber-pair-km and cable-km count pairs and cables.
 """
 
 from __future__ import annotations
@@ -11,54 +19,95 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..inputs.model import Architecture, Scenario
-from ..network.architectures import cable_geometries
+from ..network.architectures import UnitGeometry, cable_geometries
+from ..optics.line import span_count
 
-__all__ = ["InstalledResources", "installed_resources", "ModuleFigures", "module_figures"]
+__all__ = ["InstalledResources", "installed_resources", "line_port_item", "ModuleFigures", "module_figures"]
 
 
 @dataclass(frozen=True)
 class InstalledResources:
-    """Ports and fibers of one architecture on one topology.
+    """Line-side ports, fibers, fan-in/fan-out devices and amplifiers of one architecture.
 
     Attributes
     ----------
-    site_switch_ports : dict of str to int
+    site_line_ports : dict of str to int
         Line-side switch ports per site.
-    switch_ports : int
-        Total over sites.
+    line_ports : dict of str to int
+        Line-side ports over all sites, by catalogue item (``wss_port_core``,
+        ``wss_port_group``, ``fiber_xc_port``).
     fiber_pairs : int
         Fiber pairs over all cables.
-    fiber_strands : int
-        Fibers (2 x pairs).
     fiber_km : float
         Strand-km: sum of 2 x pairs x length.
+    fiber_pair_km : float
+        Sum of pairs x length.
+    cable_km : float
+        Sum of cable lengths.
+    fan_in_fan_out : int
+        Fan-in/fan-out devices.
+    amplifiers : int
+        Amplifiers, of the kind ``amplifier_item`` (``amplifier_core`` or ``amplifier_multicore``).
     """
 
-    site_switch_ports: dict[str, int]
-    switch_ports: int
+    site_line_ports: dict[str, int]
+    line_ports: dict[str, int]
     fiber_pairs: int
     fiber_km: float
+    fiber_pair_km: float
+    cable_km: float
+    fan_in_fan_out: int
+    amplifiers: int
+    amplifier_item: str
 
     @property
     def fiber_strands(self) -> int:
         """Fibers: two per pair."""
         return 2 * self.fiber_pairs
 
+    @property
+    def line_port_count(self) -> int:
+        """Line-side ports of every kind."""
+        return sum(self.line_ports.values())
+
+
+def line_port_item(geometry: UnitGeometry) -> str:
+    """The catalogue item of a line-side port for this unit."""
+    if geometry.whole_fiber:
+        return "fiber_xc_port"
+    return "wss_port_core" if geometry.cores_per_unit == 1 else "wss_port_group"
+
 
 def installed_resources(scenario: Scenario, arch: Architecture) -> InstalledResources:
-    """Switch ports and fibers of ``arch`` on the scenario's topology (with its override)."""
+    """Line ports, fibers, fan-in/fan-out devices and amplifiers of ``arch`` on the scenario's
+    topology (with its override)."""
     topo = scenario.topology_for(arch)
-    ports = {s.id: 0 for s in topo.sites}
+    line = scenario.line
+    per_core = line.amplifier == "per-core"
+    site_ports = {s.id: 0 for s in topo.sites}
+    by_item: dict[str, int] = {}
+    fifo = amplifiers = 0
     for cable, geo in zip(topo.cables, cable_geometries(scenario, arch)):
         per_end = cable.fiber_pairs * geo.ports_per_fiber
-        ports[cable.a] += per_end
-        ports[cable.b] += per_end
-    pairs = sum(c.fiber_pairs for c in topo.cables)
+        site_ports[cable.a] += per_end
+        site_ports[cable.b] += per_end
+        kind = line_port_item(geo)
+        by_item[kind] = by_item.get(kind, 0) + 2 * per_end
+        strands = 2 * cable.fiber_pairs
+        if geo.groups_per_fiber > 1:
+            fifo += 2 * strands  # both ends of every strand
+        cores = topo.fiber_types[cable.fiber_type].cores
+        amplifiers += span_count(cable.length_km, line.span_km) * strands * (cores if per_core else 1)
     return InstalledResources(
-        site_switch_ports=ports,
-        switch_ports=sum(ports.values()),
-        fiber_pairs=pairs,
+        site_line_ports=site_ports,
+        line_ports=by_item,
+        fiber_pairs=sum(c.fiber_pairs for c in topo.cables),
         fiber_km=sum(2 * c.fiber_pairs * c.length_km for c in topo.cables),
+        fiber_pair_km=sum(c.fiber_pairs * c.length_km for c in topo.cables),
+        cable_km=sum(c.length_km for c in topo.cables),
+        fan_in_fan_out=fifo,
+        amplifiers=amplifiers,
+        amplifier_item="amplifier_core" if per_core else "amplifier_multicore",
     )
 
 

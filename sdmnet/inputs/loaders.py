@@ -50,6 +50,7 @@ from typing import Any, Literal, NoReturn, get_args, get_origin, get_type_hints
 
 import networkx as nx
 
+from ..equipment.catalogue import ITEM_NAMES
 from ..errors import ConfigurationError, InputError
 from ..network.architectures import why_not_allowed
 from ..network.routing import datacenter_pairs
@@ -1003,11 +1004,12 @@ def _transceiver_classes(doc: _Doc, value: Any) -> tuple[TransceiverClass, ...]:
 
 
 def _item_table(doc: _Doc, data: Mapping[str, Any], key: str) -> dict[str, float]:
-    """``[costs]`` or ``[power]``: item name -> a finite number >= 0 (the items are checked by the
-    cost model)."""
+    """``[costs]`` or ``[power]``: item name -> a finite number >= 0, items from the cost model's
+    catalogue (:mod:`sdmnet.equipment.catalogue`)."""
     if key not in data:
         return {}
     table = _table(doc, key, data[key])
+    _check_keys(doc, key, table, ITEM_NAMES)
     at_least_zero = _at_least(0)
     return {str(k): _within(doc, _at(key, str(k)), _as_float(doc, _at(key, str(k)), v), at_least_zero)
             for k, v in table.items()}

@@ -8,6 +8,7 @@ numbers always give the same bytes; Parquet beside it when pyarrow is installed)
 from __future__ import annotations
 
 import json
+import math
 import os
 import tempfile
 from collections.abc import Sequence
@@ -15,6 +16,7 @@ from pathlib import Path
 
 import pandas as pd
 
+from ..equipment.costs import Price, carried_tbps, cost_and_power, equipment_counts, site_switch_ports
 from ..equipment.installed import installed_transceivers
 from ..equipment.resources import InstalledResources
 from ..inputs.model import Scenario
@@ -55,6 +57,12 @@ SUMMARY_COLUMNS = [
     "transceiver_lanes_installed",
     "carried_erlang",
     "transceiver_mimo_lanes_installed",
+    "switch_ports_line",
+    "switch_ports_add_drop",
+    "cost",
+    "power_w",
+    "carried_tbps",
+    "cost_per_carried_tbps",
     "bandwidth_blocking_ci_low",
     "bandwidth_blocking_ci_high",
     "transceivers_mean",
@@ -74,12 +82,15 @@ def summary_table(
     points: Sequence[PointSummary],
     setups: dict[str, EngineSetup],
     resources: dict[str, InstalledResources],
+    prices: dict[str, dict[str, Price]] | None = None,
 ) -> pd.DataFrame:
     """One row per (architecture, load point), in scenario order.
 
     Installed transceivers are per-site overflow quantiles summed over sites
     (:mod:`sdmnet.equipment.installed`); carried Erlang is the offered load times the fraction of
-    requests accepted.
+    requests accepted; switch ports are line-side plus one add/drop port per installed module.
+    With ``prices`` (architecture -> :func:`sdmnet.equipment.costs.unit_prices`), the cost and
+    watts of everything installed at that load (NaN without).
     """
     rows = []
     for p in points:
@@ -88,6 +99,10 @@ def summary_table(
         res = resources[arch.name]
         unit = cable_geometries(scenario, arch)[0]
         installed = installed_transceivers(p, scenario.transceiver.overflow)
+        cost = power = math.nan
+        carried = carried_tbps(scenario, p)
+        if prices is not None:
+            cost, power = cost_and_power(equipment_counts(res, installed), prices[arch.name])
         rows.append(
             {
                 "architecture": arch.name,
@@ -101,13 +116,19 @@ def summary_table(
                 "bandwidth_blocking": p.bandwidth_blocking.mean,
                 "transceivers_peak": p.transceivers_peak,
                 "transceiver_lanes_peak": p.lanes_peak,
-                "switch_ports": res.switch_ports,
+                "switch_ports": res.line_port_count + installed.modules,
                 "fiber_pairs": res.fiber_pairs,
                 "fiber_km": res.fiber_km,
                 "transceivers_installed": installed.modules,
                 "transceiver_lanes_installed": installed.lanes,
                 "carried_erlang": p.load_erlang * (1.0 - p.blocking.mean),
                 "transceiver_mimo_lanes_installed": installed.mimo_lanes,
+                "switch_ports_line": res.line_port_count,
+                "switch_ports_add_drop": installed.modules,
+                "cost": cost,
+                "power_w": power,
+                "carried_tbps": carried,
+                "cost_per_carried_tbps": cost / carried if carried > 0 else math.nan,
                 "bandwidth_blocking_ci_low": p.bandwidth_blocking.low,
                 "bandwidth_blocking_ci_high": p.bandwidth_blocking.high,
                 "transceivers_mean": p.transceivers_mean,
@@ -193,13 +214,13 @@ def site_table(
     setups: dict[str, EngineSetup],
     resources: dict[str, InstalledResources],
 ) -> pd.DataFrame:
-    """Transceivers and switch ports per site."""
+    """Transceivers and switch ports (line side plus one add/drop port per installed module) per site."""
     roles = {s.id: s.role for s in scenario.topology.sites}
     rows = []
     for p in points:
         setup = setups[p.architecture]
-        ports = resources[p.architecture].site_switch_ports
         installed = installed_transceivers(p, scenario.transceiver.overflow)
+        ports = site_switch_ports(resources[p.architecture], installed, setup.sites)
         for i, site in enumerate(setup.sites):
             rows.append(
                 {
@@ -207,7 +228,9 @@ def site_table(
                     "load_erlang": p.load_erlang,
                     "site": site,
                     "role": roles[site],
-                    "switch_ports": ports[site],
+                    "switch_ports": sum(ports[i]),
+                    "switch_ports_line": ports[i][0],
+                    "switch_ports_add_drop": ports[i][1],
                     "transceivers_installed": installed.site_modules[i],
                     "transceiver_lanes_installed": installed.site_lanes[i],
                     "transceiver_mimo_lanes_installed": installed.site_mimo_lanes[i],

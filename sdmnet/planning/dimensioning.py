@@ -43,7 +43,17 @@ import pandas as pd
 from scipy import special
 
 from ..analysis.analytic import erlang_b_servers, kaufman_roberts
-from ..equipment.resources import InstalledResources, installed_resources
+from ..equipment.costs import (
+    Price,
+    carried_tbps,
+    cost_and_power,
+    cost_rows,
+    equipment_counts,
+    site_switch_ports,
+    unit_prices,
+)
+from ..equipment.installed import InstalledTransceivers, installed_transceivers
+from ..equipment.resources import InstalledResources, installed_resources, module_figures
 from ..inputs.model import Architecture, PlanSpec, Scenario, Topology
 from ..network.architectures import UnitGeometry, cable_geometries, units_needed
 from ..network.traffic import pair_loads, pair_weights, size_classes
@@ -68,7 +78,9 @@ __all__ = [
     "plan_architecture",
     "cable_cut_table",
     "plan_rows",
+    "plan_prices",
     "totals_row",
+    "plan_cost_rows",
     "site_rows",
     "candidate_rows",
     "stderr_log",
@@ -455,7 +467,9 @@ class ArchitecturePlan:
     note : str
         Why the target was not met or minimality not shown, if so.
     resources : InstalledResources
-        Switch ports and fibers of the planned topology.
+        Line-side switch ports, fibers and amplifiers of the planned topology.
+    installed : InstalledTransceivers
+        Installed transceivers per site at the plan (:mod:`sdmnet.equipment.installed`).
     history : list of Evaluation
         Every simulated candidate, in order.
     """
@@ -473,12 +487,18 @@ class ArchitecturePlan:
     candidates: int
     note: str
     resources: InstalledResources
+    installed: InstalledTransceivers
     history: list[Evaluation] = field(default_factory=list)
 
     @property
     def pairs_by_cable(self) -> dict[str, int]:
         """Planned pairs keyed by cable."""
         return dict(zip(self.cables, self.fiber_pairs))
+
+    @property
+    def switch_ports(self) -> int:
+        """Line-side ports plus one add/drop port per installed module."""
+        return self.resources.line_port_count + self.installed.modules
 
 
 def _unreachable_reason(setup: EngineSetup, scenario: Scenario, target: float, per_pair: bool) -> str:
@@ -663,6 +683,7 @@ def plan_architecture(
         candidates=evaluator.spent,
         note=note,
         resources=installed_resources(planned, arch),
+        installed=installed_transceivers(ev.point, scenario.transceiver.overflow),
         history=list(evaluator.history),
     )
 
@@ -753,14 +774,25 @@ def plan_rows(scenario: Scenario, plan: ArchitecturePlan) -> list[dict]:
     return rows
 
 
-def totals_row(scenario: Scenario, plan: ArchitecturePlan) -> dict:
-    """One row of plan_totals.csv: network totals of one architecture's plan (with cost)."""
+def plan_prices(scenario: Scenario, arch: Architecture) -> dict[str, Price]:
+    """Unit prices and watts of the items of ``arch`` (:func:`sdmnet.equipment.costs.unit_prices`)."""
+    return unit_prices(scenario, module_figures(scenario, arch))
+
+
+def totals_row(scenario: Scenario, plan: ArchitecturePlan, prices: dict[str, Price] | None = None) -> dict:
+    """One row of plan_totals.csv: network totals of one architecture's plan, with its cost and watts.
+
+    ``prices`` default to :func:`plan_prices`.
+    """
     point = plan.evaluation.point
     res = plan.resources
-    topo = scenario.topology_for(plan.architecture)
-    pair_km = sum(n * c.length_km for n, c in zip(plan.fiber_pairs, topo.cables))
+    installed = plan.installed
     worst_pair = max((iv.mean for iv, n in zip(point.pair_blocking, point.pair_offered) if n > 0), default=math.nan)
-    row = {
+    cost, power = cost_and_power(
+        equipment_counts(res, installed), prices if prices is not None else plan_prices(scenario, plan.architecture)
+    )
+    carried = carried_tbps(scenario, point)
+    return {
         "architecture": plan.architecture.name,
         "switching": plan.architecture.switching,
         "load_erlang": plan.load_erlang,
@@ -768,10 +800,19 @@ def totals_row(scenario: Scenario, plan: ArchitecturePlan) -> dict:
         "fiber_pairs": res.fiber_pairs,
         "fiber_strands": res.fiber_strands,
         "fiber_km": res.fiber_km,
-        "fiber_pair_km": pair_km,
+        "fiber_pair_km": res.fiber_pair_km,
+        "transceiver_lanes_installed": installed.lanes,
+        "transceivers_installed": installed.modules,
+        "transceiver_mimo_lanes_installed": installed.mimo_lanes,
         "transceivers_peak": point.transceivers_peak,
         "transceiver_lanes_peak": point.lanes_peak,
-        "switch_ports": res.switch_ports,
+        "switch_ports": plan.switch_ports,
+        "switch_ports_line": res.line_port_count,
+        "switch_ports_add_drop": installed.modules,
+        "cost": cost,
+        "power_w": power,
+        "carried_tbps": carried,
+        "cost_per_carried_tbps": cost / carried if carried > 0 else math.nan,
         "blocking": point.blocking.mean,
         "blocking_ci_low": point.blocking.low,
         "blocking_ci_high": point.blocking.high,
@@ -782,29 +823,31 @@ def totals_row(scenario: Scenario, plan: ArchitecturePlan) -> dict:
         "candidates": plan.candidates,
         "note": plan.note,
     }
-    costs = plan_spec(scenario).unit_costs
-    if costs:
-        parts = {
-            "cost_fiber": costs.get("fiber_pair_km", 0.0) * pair_km,
-            "cost_transceivers": costs.get("transceiver_lane", 0.0) * point.lanes_peak,
-            "cost_switch_ports": costs.get("switch_port", 0.0) * res.switch_ports,
-        }
-        row.update(parts)
-        row["cost"] = sum(parts.values())
-    return row
+
+
+def plan_cost_rows(scenario: Scenario, plan: ArchitecturePlan, prices: dict[str, Price] | None = None) -> list[dict]:
+    """Rows of cost.csv for one architecture's plan (:func:`sdmnet.equipment.costs.cost_rows`)."""
+    counts = equipment_counts(plan.resources, plan.installed)
+    prices = prices if prices is not None else plan_prices(scenario, plan.architecture)
+    return cost_rows(plan.architecture.name, counts, prices, carried_tbps(scenario, plan.evaluation.point))
 
 
 def site_rows(scenario: Scenario, plan: ArchitecturePlan) -> list[dict]:
-    """Rows of plan_sites.csv: peak transceiver modules and switch ports per site."""
+    """Rows of plan_sites.csv: installed transceivers and switch ports per site."""
     point = plan.evaluation.point
     sites = scenario.topology_for(plan.architecture).sites
+    ports = site_switch_ports(plan.resources, plan.installed, tuple(s.id for s in sites))
     return [
         {
             "architecture": plan.architecture.name,
             "site": s.id,
             "role": s.role,
+            "transceiver_lanes_installed": plan.installed.site_lanes[i],
+            "transceivers_installed": plan.installed.site_modules[i],
             "transceivers_peak": point.site_transceivers_peak[i],
-            "switch_ports": plan.resources.site_switch_ports[s.id],
+            "switch_ports": sum(ports[i]),
+            "switch_ports_line": ports[i][0],
+            "switch_ports_add_drop": ports[i][1],
         }
         for i, s in enumerate(sites)
     ]
@@ -894,9 +937,10 @@ def run_plan(
 
     Files written into ``out_dir``: ``plan.csv`` (architecture x cable: planned pairs and the
     network request blocking of the plan at the dimensioning load, with its interval),
-    ``plan_totals.csv`` (per architecture: fibers, fiber-km, peak transceivers and lanes,
-    switch ports, blocking, cost when ``[plan] unit_costs`` is given), ``plan_sites.csv`` (per
-    architecture x site), ``plan_candidates.csv`` (every simulated candidate), ``cuts.csv``
+    ``plan_totals.csv`` (per architecture: fibers, fiber-km, installed transceiver lanes and
+    modules, switch ports, cost and watts, blocking), ``cost.csv`` (per architecture and item:
+    count, unit cost, cost, watts, and a total row), ``plan_sites.csv`` (per architecture x
+    site), ``plan_candidates.csv`` (every simulated candidate), ``cuts.csv``
     (with ``cable_cuts``) and ``run.json``.  Tables are rewritten after each architecture, so an
     interrupted run leaves the finished architectures on disk.
 
@@ -923,19 +967,22 @@ def run_plan(
     started = time.perf_counter()
     out, log = start_run(scenario, out_dir, "plan", progress)
     plans: list[ArchitecturePlan] = []
-    plan_part, totals_part, site_part, cand_part, cut_parts = [], [], [], [], []
+    plan_part, totals_part, site_part, cand_part, cost_part, cut_parts = [], [], [], [], [], []
     cuts: pd.DataFrame | None = None
     for arch in scenario.architectures:
         ap = plan_architecture(scenario, arch, jobs=jobs, log=log)
         plans.append(ap)
         plan_part += plan_rows(scenario, ap)
-        totals_part.append(totals_row(scenario, ap))
+        prices = plan_prices(scenario, arch)
+        totals_part.append(totals_row(scenario, ap, prices))
+        cost_part += plan_cost_rows(scenario, ap, prices)
         site_part += site_rows(scenario, ap)
         cand_part += candidate_rows(ap)
         write_table(pd.DataFrame(plan_part), out / "plan.csv")
         write_table(pd.DataFrame(totals_part), out / "plan_totals.csv")
         write_table(pd.DataFrame(site_part), out / "plan_sites.csv")
         write_table(pd.DataFrame(cand_part), out / "plan_candidates.csv")
+        write_table(pd.DataFrame(cost_part), out / "cost.csv")
         if cable_cuts:
             cut_parts.append(cable_cut_table(scenario, ap, jobs=jobs, log=log))
             cuts = pd.concat(cut_parts, ignore_index=True)

@@ -6,7 +6,7 @@ and dimensions again with those fibers as the floor: it grows until the target h
 scaled dimensioning load, then trims only what it added this year.  Each year is simulated
 with the scenario's seed (common random numbers across candidates and years).
 
-``transceivers_peak`` and ``switch_ports`` in forecast.csv are network totals of the
+``transceivers_peak``, ``switch_ports`` and ``transceiver_lanes_installed`` in forecast.csv are network totals of the
 architecture, repeated on each cable row (the engine counts transceivers per site, not per
 cable); ``forecast_totals.csv`` holds them once per year and architecture.
 """
@@ -53,6 +53,7 @@ FORECAST_COLUMNS = [
     "fiber_pairs",
     "transceivers_peak",
     "switch_ports",
+    "transceiver_lanes_installed",
     "load_factor",
     "load_erlang",
     "added_pairs",
@@ -156,7 +157,8 @@ def forecast_rows(years: list[YearPlan]) -> list[dict]:
                     "cable": cable,
                     "fiber_pairs": p.fiber_pairs[i],
                     "transceivers_peak": point.transceivers_peak,
-                    "switch_ports": p.resources.switch_ports,
+                    "switch_ports": p.switch_ports,
+                    "transceiver_lanes_installed": p.installed.lanes,
                     "load_factor": yp.load_factor,
                     "load_erlang": p.load_erlang,
                     "added_pairs": yp.added[i],

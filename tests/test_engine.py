@@ -20,7 +20,7 @@ from builders import chain, fiber_type, scenario, shortest_routes, single_cable,
 
 from sdmnet.errors import ConfigurationError
 from sdmnet.inputs.model import Architecture
-from sdmnet.sim.engine import _BATCH, _arrivals, prepare, replication_seed, simulate_replication
+from sdmnet.sim.engine import _BATCH, _arrivals, fiber_plan, prepare, replication_seed, simulate_replication
 from sdmnet.sim.stats import ratio_interval, t_interval
 
 
@@ -105,6 +105,27 @@ def test_mixed_sizes_block_per_class_as_kaufman_roberts(switching, cores, lane_s
         assert iv.low <= expected[k] <= iv.high, (k, iv, expected[k])
     # The larger class blocks more: a check that the per-class split is meaningful.
     assert expected[1] > 2 * expected[0]
+
+
+def test_fiber_switching_grooms_into_provisioned_fibers_as_kaufman_roberts():
+    # One pair on one cable of 3 fiber pairs (2 cores x 4 channels: 8 lanes each): the
+    # provisioning gives the pair every fiber that adds carried traffic, and demands of 1 and 3
+    # lanes share the 24 lanes completely (docs/model.md, section 3): Kaufman-Roberts per class.
+    lane = 100.0
+    fiber = fiber_type(cores=2, channels=4)
+    arch = Architecture("fxc", "fiber", share=True)
+    sizes = ((100.0, 0.6), (300.0, 0.4))
+    load = 10.0
+    sc = scenario(single_cable(fiber, fiber_pairs=3), [arch], loads=(load,), sizes=sizes, lane_gbps=lane)
+    setup = prepare(sc, arch, shortest_routes)
+    assert setup.provisioned_fibers and fiber_plan(setup, load) == ((3,),)
+    records = _simulate(sc, arch, load, replications=10, requests=20_000)
+    expected = kaufman_roberts(24, [load * 0.6, load * 0.4], [1, 3])
+    for k in range(2):
+        iv = _class_interval(records, k, 0.999)
+        assert iv.low <= expected[k] <= iv.high, (k, iv, expected[k])
+    # The fibers are held all run: the cable is fully used whatever the demands do.
+    assert records[0].cable_utilisation == [1.0]
 
 
 def _point_blocking(sc, arch, load):

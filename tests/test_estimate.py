@@ -147,3 +147,14 @@ def test_independent_switching_on_random_coupling_is_a_configuration_error():
     sc = scenario(single_cable(f), [INDEPENDENT])
     with pytest.raises(ConfigurationError, match="architectures\\[0\\]"):
         estimate(sc, route_finder=shortest_routes)
+
+
+def test_fiber_switching_with_grooming_is_kaufman_roberts_over_the_provisioned_lanes():
+    # One pair on one cable: the pair is provisioned every fiber (3 x 2 cores x 4 channels = 24
+    # lanes) and its demands of 1 and 3 lanes share them completely (docs/model.md, section 3).
+    arch = Architecture("fxc", "fiber", share=True)
+    sizes = ((100.0, 0.6), (300.0, 0.4))
+    sc = scenario(single_cable(fiber_type(cores=2, channels=4), fiber_pairs=3), [arch], loads=(10.0,), sizes=sizes)
+    net, _ = estimate(sc, route_finder=shortest_routes)
+    per_class = kaufman_roberts(24, [6.0, 4.0], [1, 3])
+    assert net["blocking"].iloc[0] == pytest.approx(0.6 * per_class[0] + 0.4 * per_class[1], rel=1e-9)

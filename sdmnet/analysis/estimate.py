@@ -28,6 +28,9 @@ from ..network.architectures import UnitGeometry, cable_geometries, units_needed
 from ..network.routing import Route, datacenter_pairs
 from ..network.traffic import pair_weights, size_classes
 from ..optics.pathtable import feasible_routes
+from ..optics.physics import mimo_group
+from ..sim.engine import modules_per_end
+from ..sim.provisioning import provision_fiber_paths
 from .reduced_load import RoutedStream, RouteOption, routed_fixed_point
 
 __all__ = [
@@ -68,7 +71,15 @@ class _Model:
     stream_pair: np.ndarray  # (S,) pair index of each stream
     stream_rate: np.ndarray  # (S,) offered load per Erlang of total load (demands needing new units)
     stream_gbps: np.ndarray  # (S,) demand size of each stream
+    stream_size: np.ndarray  # (S,) size class of each stream
     streams: list[RoutedStream]  # the routes each stream tries, in order
+    # Fiber switching with grooming: fiber paths provisioned per pair (docs/model.md, section 3).
+    provisioned: bool
+    fiber_pairs: list[int]  # per cable
+    pair_routes: list[tuple[tuple[int, ...], ...]]  # per pair, its routes as cable indices
+    pair_route_lanes: list[tuple[int, ...]]  # per pair and route, lanes of one fiber
+    size_probs: list[float]  # per size class
+    size_lanes: list[list[list[int]]]  # per pair, route and size class: lanes one demand fills
 
 
 def _pair_routes(found: dict[tuple[str, str], list[Route]], a: str, b: str) -> list[Route]:
@@ -116,14 +127,22 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
     sizes, probs = size_classes(scenario.traffic)
     found = route_finder(scenario, arch)
     mean_load = float(np.mean(scenario.traffic.loads_erlang))
-    routed, stream_pair, stream_rate, stream_gbps, streams = [], [], [], [], []
+    provisioned = bool(geos) and geos[0].whole_fiber and arch.share
+    routed, stream_pair, stream_rate, stream_gbps, stream_size, streams = [], [], [], [], [], []
+    pair_routes, pair_route_lanes, size_lanes = [], [], []
+    lane = scenario.transceiver.lane_gbps
     for n, (a, b) in enumerate(pairs):
         routes = _pair_routes(found, a, b)
         routed.append(bool(routes))
+        pair_routes.append(tuple(tuple(r.cables) for r in routes))
+        pair_route_lanes.append(tuple(geos[r.cables[0]].lanes_per_unit for r in routes))
+        # A demand fills whole transceiver modules: MIMO groups on randomly coupled fiber.
+        groups = [mimo_group([topo.fiber_types[topo.cables[h].fiber_type] for h in r.cables]) for r in routes]
+        size_lanes.append([[modules_per_end(float(s), lane, c) * c for s in sizes] for c in groups])
         if not routes:
             continue
         first = geos[routes[0].cables[0]]
-        for size, prob in zip(sizes, probs):
+        for k, (size, prob) in enumerate(zip(sizes, probs)):
             if prob <= 0:
                 continue
             options = tuple(
@@ -131,11 +150,12 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
                 for r in routes
             )
             new, scale = (1.0, 1.0)
-            if arch.share:
+            if arch.share and not provisioned:
                 new, scale = _grooming(float(size), first.unit_gbps, mean_load * weights[(a, b)])
             stream_pair.append(n)
             stream_rate.append(weights[(a, b)] * prob * new)
             stream_gbps.append(float(size))
+            stream_size.append(k)
             streams.append(RoutedStream(options, scale))
     return _Model(
         capacities=capacities,
@@ -145,8 +165,56 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
         stream_pair=np.array(stream_pair, dtype=np.int64),
         stream_rate=np.array(stream_rate, dtype=float),
         stream_gbps=np.array(stream_gbps, dtype=float),
+        stream_size=np.array(stream_size, dtype=np.int64),
         streams=streams,
+        provisioned=provisioned,
+        fiber_pairs=fibers,
+        pair_routes=pair_routes,
+        pair_route_lanes=pair_route_lanes,
+        size_probs=[float(x) for x in probs],
+        size_lanes=size_lanes,
     )
+
+
+def _solve_routed(model: _Model, stream_loads: np.ndarray) -> tuple[np.ndarray, int, bool]:
+    """Stream blocking (P, S) on the cables, with the fixed point's iterations and convergence."""
+    solved = routed_fixed_point(model.capacities, model.streams, stream_loads, damping=_DAMPING, tol=_TOL,
+                                max_iter=_MAX_ITER)  # fmt: skip
+    return solved.stream_blocking, solved.iterations, solved.converged
+
+
+def _solve_provisioned(model: _Model, loads: np.ndarray, stream_loads: np.ndarray) -> tuple[np.ndarray, int, bool]:
+    """Stream blocking (P, S) in fiber paths provisioned at each load point.
+
+    Each pair's fiber paths on one route form a pool of lanes that only its demands use; a
+    demand tries the pools of its routes in order.  One pool per pair: Kaufman-Roberts over
+    lanes, exactly what the engine simulates; several: the routed fixed point over the pools.
+    """
+    blocking = np.ones_like(stream_loads)
+    iterations, converged = 0, True
+    for p, load in enumerate(loads):
+        plan = provision_fiber_paths(model.fiber_pairs, model.pair_routes, list(load * model.pair_share),
+                                     model.size_probs, model.size_lanes, model.pair_route_lanes)  # fmt: skip
+        pool_of, capacities = {}, []
+        for n, per_route in enumerate(plan):
+            for r, count in enumerate(per_route):
+                if count:
+                    pool_of[(n, r)] = len(capacities)
+                    capacities.append(count * model.pair_route_lanes[n][r])
+        streams, members = [], []
+        for s, (n, k) in enumerate(zip(model.stream_pair, model.stream_size)):
+            options = tuple(RouteOption((pool_of[(n, r)],), (model.size_lanes[n][r][k],))
+                            for r in range(len(plan[n])) if (n, r) in pool_of)  # fmt: skip
+            if options:
+                streams.append(RoutedStream(options))
+                members.append(s)
+        if streams:
+            solved = routed_fixed_point(capacities, streams, stream_loads[p : p + 1, members], damping=_DAMPING,
+                                        tol=_TOL, max_iter=_MAX_ITER)  # fmt: skip
+            blocking[p, members] = solved.stream_blocking[0]
+            iterations = max(iterations, solved.iterations)
+            converged = converged and solved.converged
+    return blocking, iterations, converged
 
 
 def _ratio(num: np.ndarray, den: np.ndarray) -> np.ndarray:
@@ -193,9 +261,10 @@ def estimate_architecture(
     iterations, converged = 0, True
     if model.streams:
         stream_loads = loads[:, None] * model.stream_rate[None, :]
-        solved = routed_fixed_point(model.capacities, model.streams, stream_loads, damping=_DAMPING, tol=_TOL,
-                                    max_iter=_MAX_ITER)  # fmt: skip
-        stream_b, iterations, converged = solved.stream_blocking, solved.iterations, solved.converged
+        if model.provisioned:
+            stream_b, iterations, converged = _solve_provisioned(model, loads, stream_loads)
+        else:
+            stream_b, iterations, converged = _solve_routed(model, stream_loads)
         lost = stream_loads * stream_b
         for p in range(n_points):
             blocked[p] += np.bincount(model.stream_pair, weights=lost[p], minlength=n_pairs)

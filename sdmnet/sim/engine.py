@@ -39,8 +39,9 @@ from ..network.architectures import cable_geometries, units_needed
 from ..network.routing import Route, datacenter_pairs
 from ..network.traffic import pair_weights, size_classes
 from .allocation import FiberState, Grant, UnitState
+from .provisioning import provision_fiber_paths
 
-__all__ = ["EngineSetup", "ReplicationRecord", "prepare", "simulate_replication", "replication_seed"]
+__all__ = ["EngineSetup", "ReplicationRecord", "prepare", "simulate_replication", "replication_seed", "fiber_plan"]
 
 _BATCH = 4096
 
@@ -85,6 +86,12 @@ class EngineSetup:
         Lane rate (a demand of s Gb/s fills ceil(s / lane) lanes).
     mean_holding : float
         Mean holding time.
+    provisioned_fibers : bool
+        Fiber switching with grooming: fiber paths are provisioned per pair from the offered
+        load before the run and demands are groomed into their lanes
+        (:mod:`sdmnet.sim.provisioning`).  False lights a fiber for the first demand that needs
+        it and frees it when the last demand in it leaves (which locks in at a few Erlang
+        per pair: kept for checks of the steady-state test).
     """
 
     architecture: Architecture
@@ -105,6 +112,7 @@ class EngineSetup:
     whole_fiber: bool
     lane_gbps: float
     mean_holding: float
+    provisioned_fibers: bool = False
 
     @property
     def unrouted_pairs(self) -> tuple[tuple[str, str], ...]:
@@ -230,6 +238,27 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
         whole_fiber=geometries[0].whole_fiber if geometries else False,
         lane_gbps=lane,
         mean_holding=scenario.traffic.mean_holding,
+        provisioned_fibers=bool(geometries and geometries[0].whole_fiber and arch.share),
+    )
+
+
+def _fiber_lanes(setup: EngineSetup) -> tuple[list[list[int]], list[list[list[int]]]]:
+    """Per pair and route: lanes of one fiber, and lanes a demand of each size fills (whole
+    MIMO modules on randomly coupled fiber: :func:`modules_per_end`)."""
+    per_fiber, per_demand = [], []
+    for gbps_row, module_row in zip(setup.route_unit_gbps, setup.route_lanes_per_module):
+        per_fiber.append([round(g / setup.lane_gbps) for g in gbps_row])
+        per_demand.append([[modules_per_end(s, setup.lane_gbps, c) * c for s in setup.sizes_gbps] for c in module_row])
+    return per_fiber, per_demand
+
+
+def fiber_plan(setup: EngineSetup, load_erlang: float) -> tuple[tuple[int, ...], ...]:
+    """Fiber paths per pair and route provisioned at ``load_erlang`` (docs/model.md, section 3)."""
+    shares = np.diff(np.concatenate(([0.0], setup.pair_cumulative)))
+    probs = np.diff(np.concatenate(([0.0], setup.size_cumulative)))
+    per_fiber, per_demand = _fiber_lanes(setup)
+    return provision_fiber_paths(
+        setup.fiber_pairs, setup.routes, [load_erlang * w for w in shares], probs.tolist(), per_demand, per_fiber
     )
 
 
@@ -696,7 +725,43 @@ def simulate_replication(
             change_modules(a, b, per_end, c)
         return ([], (per_end, c, a, b, plan))
 
-    departure = _Departure.for_run(env, release_shared if share else release_own)
+    # Fiber switching with provisioned fiber paths: the paths hold their fibers for the whole
+    # run; a demand takes lanes of its pair's paths, in route order (docs/model.md, section 3).
+    provisioned = share and whole_fiber and setup.provisioned_fibers
+    held: list[Grant] = []
+    spare_lanes: list[list[int]] = []
+    if provisioned:
+        per_fiber, demand_lanes = _fiber_lanes(setup)
+        for p, per_route in enumerate(fiber_plan(setup, load_erlang)):
+            for r, n in enumerate(per_route):
+                for _ in range(n):
+                    g = take(route_table[p][r][0], 1)
+                    assert g is not None, "provisioned fiber paths exceed the cables"
+                    held.append(g)
+            spare_lanes.append([n * per_fiber[p][r] for r, n in enumerate(per_route)])
+
+    def book_provisioned(p: int, k: int) -> tuple | None:
+        row = spare_lanes[p]
+        for r, free in enumerate(row):
+            need = demand_lanes[p][r][k]
+            if free >= need:
+                row[r] = free - need
+                per_end, c = route_table[p][r][2][k][1] // 2, route_lanes[p][r]
+                a, b = setup.pair_sites[p]
+                change_modules(a, b, per_end, c)
+                return ([], (per_end, c, a, b, p, r, need))
+        return None
+
+    def release_provisioned(event: _Departure) -> None:
+        _grant, (per_end, c, a, b, p, r, need) = event.booking
+        spare_lanes[p][r] += need
+        change_modules(a, b, -per_end, c)
+        if observer is not None:
+            observer("release", event)
+
+    book_groomed = book_provisioned if provisioned else book_shared
+    release = release_provisioned if provisioned else release_shared if share else release_own
+    departure = _Departure.for_run(env, release)
     # Arrivals are a plain loop over the records; departures are events on SimPy's queue, and
     # the loop lets SimPy process every departure due before each arrival (env.peek / env.step).
     # An arrival then books at its own time t: the departure is scheduled `t + hold - now`
@@ -734,7 +799,7 @@ def simulate_replication(
             except IndexError:
                 _tally_grown(hist[b], site_state[b])
             if share:
-                booking = book_shared(p, k)
+                booking = book_groomed(p, k)
             else:
                 for cables, units, route_kinds in route_table[p]:
                     grant = take(cables, units[k])
@@ -772,6 +837,8 @@ def simulate_replication(
                     observer("book", leave)
     if drain:
         env.run()
+        for g in held:
+            give_back(g)
     end_time = max(t, env.now)
 
     # Spread the kinds' stamps over the cables, sites and totals they stand for.

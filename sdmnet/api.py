@@ -45,6 +45,7 @@ __all__ = [
     "forecast",
     "report",
     "demo",
+    "starter",
     "summarize_records",
     "software_versions",
     "ensure_out_dir",
@@ -219,6 +220,14 @@ def report(folder: Path | str, out_dir: Path | str | None = None) -> Path:
                 shutil.copy2(item, target / item.name)
         path = target
     return write_report(path)
+
+
+def starter(folder: Path | str) -> list[Path]:
+    """Copy a starter scenario and topology (the demo's) into ``folder`` for the user to edit;
+    refuses to overwrite (:func:`sdmnet.inputs.bundled.copy_starter`)."""
+    from .inputs.bundled import copy_starter
+
+    return copy_starter(folder)
 
 
 def demo(scenario: Scenario, out_dir: Path | str, *, jobs: int = 2, progress: bool = True) -> SimulationResult:

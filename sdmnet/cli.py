@@ -179,6 +179,14 @@ def cmd_demo(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def cmd_starter(args: argparse.Namespace) -> int:
+    from . import api
+
+    scenario, topology = api.starter(Path(args.folder))
+    print(f"wrote {scenario} and {topology}; edit them, then: sdmnet check {scenario}")
+    return EXIT_OK
+
+
 def _add_out(p: argparse.ArgumentParser) -> None:
     p.add_argument("-o", "--out", metavar="DIR", help="output folder (default: under results/)")
 
@@ -244,6 +252,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--jobs", type=_positive_int, default=2, help="local worker processes (default 2)")
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
     p.set_defaults(func=cmd_demo)
+
+    p = verbs.add_parser("starter", help="copy a starter scenario and topology into a folder to edit")
+    p.add_argument("folder", metavar="DIR", help="where to write scenario.toml and topology.toml (created)")
+    p.set_defaults(func=cmd_starter)
     return parser
 
 

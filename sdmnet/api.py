@@ -20,7 +20,6 @@ from .equipment.costs import unit_prices
 from .equipment.resources import InstalledResources, installed_resources, module_figures
 from .errors import InputError
 from .inputs.model import Scenario
-from .output.figures import blocking_figure
 from .output.manifest import ensure_out_dir, run_manifest, software_versions
 from .output.tables import (
     add_module_columns,
@@ -94,8 +93,8 @@ def simulate(
     Files written into ``out_dir``: ``summary.csv``, ``classes.csv`` (per size class),
     ``pairs.csv`` (per datacenter pair), ``sites.csv`` (transceivers and ports per site),
     ``cables.csv`` (utilisation), ``run.json`` (inputs, seeds, versions, wall time),
-    ``blocking.png`` and ``bandwidth_blocking.png``, and ``tasks/`` (one file per finished
-    replication, used by ``resume``).
+    ``report.html`` with its figures (``blocking.png``, ``bandwidth_blocking.png``, ...), and
+    ``tasks/`` (one file per finished replication, used by ``resume``).
 
     Parameters
     ----------
@@ -112,7 +111,7 @@ def simulate(
     progress : bool
         Report progress on stderr for runs longer than a few seconds.
     figures : bool
-        Draw the figures.
+        Write ``report.html`` and its figures (each drawn once, by :func:`report`).
 
     Raises
     ------
@@ -148,13 +147,11 @@ def simulate(
         ("cables", cables),
     ):
         write_table(frame, out / f"{name}.csv")
-    if figures:
-        blocking_figure(summary, out / "blocking.png")
-        blocking_figure(summary, out / "bandwidth_blocking.png", column="bandwidth_blocking",
-                        title="Bandwidth blocking vs offered load (95 % intervals)")
     wall = time.perf_counter() - started
     manifest = run_manifest(scenario, "simulate", wall, setups=setups, jobs=jobs, scheduler=scheduler)
     write_json(manifest, out / "run.json")
+    if figures:
+        report(out)
     return SimulationResult(out, summary, classes, pairs, sites, cables, points, wall)
 
 
@@ -184,20 +181,35 @@ def paths(scenario: Scenario, out_dir: Path | str) -> pd.DataFrame:
     return table
 
 
-def plan(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True, cable_cuts: bool = False):
+def plan(
+    scenario: Scenario,
+    out_dir: Path | str,
+    *,
+    jobs: int = 1,
+    progress: bool = True,
+    cable_cuts: bool = False,
+    figures: bool = True,
+):
     """Fewest fiber pairs per cable meeting the target blocking: writes ``plan.csv``, its
-    totals, and run.json (:func:`sdmnet.planning.dimensioning.run_plan`)."""
+    totals, run.json (:func:`sdmnet.planning.dimensioning.run_plan`) and, with ``figures``,
+    ``report.html`` and its figures."""
     from .planning.dimensioning import run_plan
 
-    return run_plan(scenario, out_dir, jobs=jobs, progress=progress, cable_cuts=cable_cuts)
+    result = run_plan(scenario, out_dir, jobs=jobs, progress=progress, cable_cuts=cable_cuts)
+    if figures:
+        report(out_dir)
+    return result
 
 
-def forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True):
-    """The plan year by year under growth: writes ``forecast.csv``, figures and run.json
-    (:func:`sdmnet.planning.forecasting.run_forecast`)."""
+def forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True, figures: bool = True):
+    """The plan year by year under growth: writes ``forecast.csv``, its figures and run.json
+    (:func:`sdmnet.planning.forecasting.run_forecast`) and, with ``figures``, ``report.html``."""
     from .planning.forecasting import run_forecast
 
-    return run_forecast(scenario, out_dir, jobs=jobs, progress=progress)
+    result = run_forecast(scenario, out_dir, jobs=jobs, progress=progress)
+    if figures:
+        report(out_dir)
+    return result
 
 
 def report(folder: Path | str, out_dir: Path | str | None = None) -> Path:
@@ -237,11 +249,12 @@ def demo(scenario: Scenario, out_dir: Path | str, *, jobs: int = 2, progress: bo
     out = ensure_out_dir(out_dir)
     paths(scenario, out)
     estimate(scenario, out)
-    result = simulate(scenario, out, jobs=jobs, progress=progress)
+    # The report (and every figure in it) is written once, at the end.
+    result = simulate(scenario, out, jobs=jobs, progress=progress, figures=False)
     if scenario.plan is not None:
-        plan(scenario, out, jobs=jobs, progress=progress)
+        plan(scenario, out, jobs=jobs, progress=progress, figures=False)
     if scenario.forecast is not None:
-        forecast(scenario, out, jobs=jobs, progress=progress)
+        forecast(scenario, out, jobs=jobs, progress=progress, figures=False)
     wall = time.perf_counter() - started
     write_json(run_manifest(scenario, "demo", wall, jobs=jobs), out / "run.json")
     report(out)

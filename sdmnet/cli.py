@@ -88,7 +88,6 @@ def cmd_simulate(args: argparse.Namespace) -> int:
         resume=args.resume,
         progress=not args.quiet,
     )
-    api.report(result.out_dir)
     _print_summary(result.summary)
     _warn_unrouted(result.summary)
     print(f"results in {result.out_dir}/ ({result.wall_time_s:.1f} s), report.html")
@@ -141,7 +140,6 @@ def cmd_plan_or_forecast(args: argparse.Namespace) -> int:
         api.plan(scenario, out, jobs=args.jobs, progress=not args.quiet, cable_cuts=args.cuts)
     else:
         api.forecast(scenario, out, jobs=args.jobs, progress=not args.quiet)
-    api.report(out)
     print(f"results in {out}/ (report.html)")
     return EXIT_OK
 

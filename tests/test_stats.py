@@ -6,7 +6,41 @@ import math
 
 import pytest
 
-from sdmnet.sim.stats import ratio_interval, t_interval
+from sdmnet.sim.stats import ratio_interval, t_interval, t_quantile
+
+# Upper critical values t(1 - alpha, df) of Student's t, as printed (3 decimals) in the
+# NIST/SEMATECH e-Handbook of Statistical Methods, section 1.3.6.7.2, "Critical Values of the
+# Student's t Distribution": {df: {1 - alpha: value}}.  The table's 0.999 column is left out:
+# three of its entries (df 1, 9, 10: 318.313, 4.296, 4.143) are off in the third decimal from
+# the exact values (318.309, 4.297, 4.144 in other printed tables and in scipy).
+NIST_T_TABLE = {
+    1: {0.90: 3.078, 0.95: 6.314, 0.975: 12.706, 0.99: 31.821, 0.995: 63.657},
+    2: {0.90: 1.886, 0.95: 2.920, 0.975: 4.303, 0.99: 6.965, 0.995: 9.925},
+    3: {0.90: 1.638, 0.95: 2.353, 0.975: 3.182, 0.99: 4.541, 0.995: 5.841},
+    4: {0.90: 1.533, 0.95: 2.132, 0.975: 2.776, 0.99: 3.747, 0.995: 4.604},
+    5: {0.90: 1.476, 0.95: 2.015, 0.975: 2.571, 0.99: 3.365, 0.995: 4.032},
+    9: {0.90: 1.383, 0.95: 1.833, 0.975: 2.262, 0.99: 2.821, 0.995: 3.250},
+    10: {0.90: 1.372, 0.95: 1.812, 0.975: 2.228, 0.99: 2.764, 0.995: 3.169},
+    19: {0.90: 1.328, 0.95: 1.729, 0.975: 2.093, 0.99: 2.539, 0.995: 2.861},
+    30: {0.90: 1.310, 0.95: 1.697, 0.975: 2.042, 0.99: 2.457, 0.995: 2.750},
+    100: {0.90: 1.290, 0.95: 1.660, 0.975: 1.984, 0.99: 2.364, 0.995: 2.626},
+}
+
+
+@pytest.mark.parametrize("df", sorted(NIST_T_TABLE))
+def test_t_quantile_matches_the_printed_table(df: int) -> None:
+    for probability, printed in NIST_T_TABLE[df].items():
+        assert t_quantile(probability, df) == pytest.approx(printed, abs=0.0005 + 1e-12)
+
+
+def test_t_quantile_agrees_with_a_reference_library_to_rounding() -> None:
+    # scipy's stdtrit (Cephes) as an independent implementation; sdmnet does not import it.
+    from scipy.special import stdtrit
+
+    for df in (1, 2, 3, 6, 7, 24, 25, 200, 999):
+        for probability in (0.6, 0.9, 0.975, 0.9995):
+            assert t_quantile(probability, df) == pytest.approx(float(stdtrit(df, probability)), rel=1e-9)
+    assert t_quantile(0.5, 7) == 0.0
 
 
 def test_t_interval_matches_a_hand_computed_case():

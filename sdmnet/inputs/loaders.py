@@ -48,8 +48,6 @@ from dataclasses import MISSING, dataclass, fields
 from pathlib import Path
 from typing import Any, Literal, NoReturn, get_args, get_origin, get_type_hints
 
-import networkx as nx
-
 from ..equipment.catalogue import ITEM_NAMES
 from ..errors import ConfigurationError, InputError
 from ..network.architectures import why_not_allowed
@@ -597,12 +595,28 @@ def _check_datacenters_connected(doc: _Doc, topology: Topology) -> None:
     datacenters = topology.datacenters
     if len(datacenters) < 2:
         doc.fail("sites", f"a topology needs at least two datacenter sites, found {len(datacenters)}")
-    component = {}
-    for number, nodes in enumerate(nx.connected_components(topology.graph())):
-        component.update(dict.fromkeys(nodes, number))
+    component = _components(topology)
     for a, b in datacenter_pairs(topology):
         if component[a] != component[b]:
             doc.fail("cables", f"no path between datacenters '{a}' and '{b}'")
+
+
+def _components(topology: Topology) -> dict[str, int]:
+    """The connected component of every site, numbered (a plain search: no networkx import)."""
+    neighbours: dict[str, list[str]] = {s.id: [] for s in topology.sites}
+    for c in topology.cables:
+        neighbours[c.a].append(c.b)
+        neighbours[c.b].append(c.a)
+    component: dict[str, int] = {}
+    for number, start in enumerate(s for s in neighbours if s not in component):
+        component[start] = number
+        todo = [start]
+        while todo:
+            for other in neighbours[todo.pop()]:
+                if other not in component:
+                    component[other] = number
+                    todo.append(other)
+    return component
 
 
 def _raw_topology_from_toml(doc: _Doc, data: Mapping[str, Any]) -> _RawTopology:
@@ -647,6 +661,8 @@ def _raw_topology_from_graphml(doc: _Doc, data: bytes) -> _RawTopology:
             if source is None or target is None:
                 doc.fail(f"edge[{source},{target}]", "an edge lacks its source or target")
             document_edges.append((source, target))
+    import networkx as nx  # only GraphML needs it; it is slow to import
+
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")  # unsupported yFiles ports and untyped keys

@@ -12,11 +12,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Literal
-
-import networkx as nx
+from typing import TYPE_CHECKING, Literal
 
 from ..optics import defaults
+
+if TYPE_CHECKING:  # networkx is imported where a graph is built: it is slow to import
+    import networkx as nx
 
 __all__ = [
     "COUPLINGS",
@@ -174,6 +175,8 @@ class Topology:
         Edge attributes: ``length_km``, ``cable`` (index into ``cables``), ``fiber_type``,
         ``fiber_pairs``. Node attributes: the site's fields.
         """
+        import networkx as nx
+
         g = nx.Graph(name=self.name)
         for s in self.sites:
             g.add_node(s.id, role=s.role, traffic_weight=s.traffic_weight, x_km=s.x_km, y_km=s.y_km)

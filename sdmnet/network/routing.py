@@ -9,8 +9,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 from itertools import combinations, islice
 
-import networkx as nx
-
 from ..inputs.model import Topology
 
 __all__ = ["Route", "k_shortest_routes", "datacenter_pairs"]
@@ -52,6 +50,8 @@ def k_shortest_routes(topology: Topology, a: str, b: str, k: int) -> list[Route]
     Uses :func:`networkx.shortest_simple_paths` (Yen's algorithm); ties in length keep
     networkx's order, which is deterministic for a given topology file.
     """
+    import networkx as nx  # here, not at the top: checking a file needs no networkx
+
     g = topology.graph()
     if a not in g or b not in g or not nx.has_path(g, a, b):
         return []

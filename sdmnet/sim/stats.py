@@ -12,13 +12,13 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
-from scipy import stats as _scipy_stats
 
 from .engine import ReplicationRecord
 
-__all__ = ["Interval", "t_interval", "ratio_interval", "PointSummary", "summarize_point"]
+__all__ = ["Interval", "t_quantile", "t_interval", "ratio_interval", "PointSummary", "summarize_point"]
 
 
 @dataclass(frozen=True)
@@ -28,6 +28,48 @@ class Interval:
     mean: float
     low: float
     high: float
+
+
+def _t_central(theta: float, df: int) -> float:
+    """P(|T| <= sqrt(df) tan(theta)) for Student's t with ``df`` degrees of freedom.
+
+    The closed forms for whole ``df`` of Abramowitz & Stegun, *Handbook of Mathematical
+    Functions* (1964), 26.7.3 (odd) and 26.7.4 (even), written in theta = arctan(t / sqrt(df)).
+    """
+    sin, cos2 = math.sin(theta), math.cos(theta) ** 2
+    if df % 2:  # odd: (2/pi) (theta + sin cos (1 + 2/3 cos^2 + 2*4/(3*5) cos^4 + ...)), df - 2 powers
+        term = total = math.cos(theta) if df > 1 else 0.0
+        for j in range(1, (df - 1) // 2):
+            term *= cos2 * (2 * j) / (2 * j + 1)
+            total += term
+        return 2 / math.pi * (theta + sin * total)
+    term = total = 1.0  # even: sin (1 + 1/2 cos^2 + 1*3/(2*4) cos^4 + ...), up to cos^(df - 2)
+    for j in range(1, df // 2):
+        term *= cos2 * (2 * j - 1) / (2 * j)
+        total += term
+    return sin * total
+
+
+@lru_cache(maxsize=256)
+def t_quantile(probability: float, df: int) -> float:
+    """The ``probability`` quantile (0.5 <= probability < 1) of Student's t with whole ``df`` >= 1.
+
+    Exact to rounding: the closed-form distribution (:func:`_t_central`) inverted by bisection
+    on theta in [0, pi/2), which it increases with.  Its cost grows with ``df`` (a sum of df/2
+    terms per step), nothing for the replication counts used here; no scipy import needed.
+    """
+    if not 0.5 <= probability < 1 or df < 1:
+        raise ValueError(f"t_quantile needs 0.5 <= probability < 1 and df >= 1, got {probability}, {df}")
+    central = 2 * probability - 1
+    low, high = 0.0, math.pi / 2
+    while True:
+        mid = (low + high) / 2
+        if mid in (low, high):  # the interval cannot shrink further in floating point
+            return math.sqrt(df) * math.tan(mid)
+        if _t_central(mid, df) < central:
+            low = mid
+        else:
+            high = mid
 
 
 def t_interval(values: Sequence[float], confidence: float = 0.95) -> Interval:
@@ -41,7 +83,7 @@ def t_interval(values: Sequence[float], confidence: float = 0.95) -> Interval:
     mean = float(x.mean())
     if x.size < 2:
         return Interval(mean, math.nan, math.nan)
-    half = float(_scipy_stats.t.ppf(0.5 + confidence / 2, x.size - 1) * x.std(ddof=1) / math.sqrt(x.size))
+    half = t_quantile(0.5 + confidence / 2, x.size - 1) * float(x.std(ddof=1)) / math.sqrt(x.size)
     return Interval(mean, mean - half, mean + half)
 
 

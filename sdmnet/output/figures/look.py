@@ -52,6 +52,11 @@ LOOK: dict[str, Any] = {
     "axes.titleweight": "bold",
     "axes.titlelocation": "left",
     "axes.titlepad": 8,
+    # A fixed title height: matplotlib otherwise measures every tick label of every axis on each
+    # draw to lift the title over them, the largest cost of a figure; nothing of ours is above
+    # the axes (no top ticks, and no offset text: see below) for it to clear.
+    "axes.titley": 1.0,
+    "axes.formatter.useoffset": False,  # whole tick values, never "+5e3" over the axis
     "axes.labelsize": 9,
     "axes.labelcolor": INK,
     "axes.edgecolor": "#555555",

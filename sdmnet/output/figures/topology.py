@@ -7,7 +7,6 @@ from collections.abc import Sequence
 from pathlib import Path
 
 import matplotlib.pyplot as plt
-import networkx as nx
 import pandas as pd
 from matplotlib.colors import Normalize
 from matplotlib.lines import Line2D
@@ -25,6 +24,8 @@ def _site_positions(
     """Positions in km from the sites' coordinates, or a seeded spring layout when any is missing."""
     if sites and all(s.get("x_km") is not None and s.get("y_km") is not None for s in sites):
         return {str(s["id"]): (float(s["x_km"]), float(s["y_km"])) for s in sites}, True
+    import networkx as nx  # only a map without coordinates needs a layout
+
     graph = nx.Graph()
     graph.add_nodes_from(str(s["id"]) for s in sites)
     graph.add_edges_from((str(c["a"]), str(c["b"])) for c in cables)

@@ -40,11 +40,21 @@ from dataclasses import dataclass
 from itertools import combinations
 
 import numpy as np
-from scipy.stats import binom
+from scipy.special import bdtrc
 
 from .analytic import _blocking_from_log, _occupancy_log
 
 __all__ = ["RouteOption", "RoutedStream", "RoutedResult", "routed_fixed_point"]
+
+
+def _binomial_sf(k, n, p) -> np.ndarray:
+    """P(X > k) for X ~ Binomial(n, p), broadcast: scipy.stats' binom.sf without importing
+    scipy.stats (slow to import); bdtrc is the same sum, defined only for 0 <= k < n."""
+    k, n, p = np.broadcast_arrays(np.asarray(k, np.int64), np.asarray(n, np.int64), np.asarray(p, float))
+    inside = (k >= 0) & (k < n)
+    out = np.where(k < 0, 1.0, 0.0)
+    out[inside] = bdtrc(k[inside], n[inside], p[inside])
+    return out
 
 
 @dataclass(frozen=True)
@@ -298,12 +308,12 @@ def _continuity(hops: _OptionHops, n_options: int, occupancy: np.ndarray, capaci
     largest = int(hops.need.max())
     z = np.arange(largest + 1)
     # P(a slot has >= z free positions on the hop), then over the hops' minimum per option.
-    tail = binom.sf(z[None, None, :] - 1, hops.positions[None, :, None], phi[:, :, None])  # (P, H, Z)
+    tail = _binomial_sf(z[None, None, :] - 1, hops.positions[None, :, None], phi[:, :, None])  # (P, H, Z)
     minimum_tail = np.ones((n_points, n_options, largest + 1))
     np.multiply.at(minimum_tail, (slice(None), hops.option), tail)
     alone = np.ones((n_points, n_options))
     np.minimum.at(alone, (slice(None), hops.option),
-                  binom.sf(hops.need[None, :] - 1, slots[:, hops.option] * hops.positions[None, :], phi))
+                  _binomial_sf(hops.need[None, :] - 1, slots[:, hops.option] * hops.positions[None, :], phi))
     for n, members in hops.groups:
         t = minimum_tail[:, members, : n + 1]
         pmf = np.empty_like(t)

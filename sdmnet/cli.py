@@ -90,6 +90,7 @@ def cmd_simulate(args: argparse.Namespace) -> int:
     )
     _print_summary(result.summary)
     _warn_unrouted(result.summary)
+    _warn_unsteady(result.summary)
     print(f"results in {result.out_dir}/ ({result.wall_time_s:.1f} s), report.html")
     return EXIT_OK
 
@@ -102,6 +103,19 @@ def _warn_unrouted(summary) -> None:
                 f"note: {name}: {count} datacenter pair(s) have no feasible path and lose all their "
                 f"demand (see pairs.csv, run.json and `sdmnet paths`)\n"
             )
+
+
+def _warn_unsteady(summary) -> None:
+    # Replications that disagree far beyond their own spread sample different states, not one
+    # steady state: their mean and interval describe the start, not the network.
+    if "steady_state" not in summary:
+        return
+    for row in summary[summary["steady_state"] == "no"].itertuples(index=False):
+        sys.stderr.write(
+            f"warning: {row.architecture} at {row.load_erlang:g} Erlang: replications disagree far more than "
+            f"their own batches allow (p = {row.steady_state_p:.1e}); the result depends on the start "
+            f"(steady_state = no in summary.csv)\n"
+        )
 
 
 def cmd_estimate(args: argparse.Namespace) -> int:

@@ -1,12 +1,18 @@
-"""Student-t intervals over replications."""
+"""Student-t intervals over replications, and the steady-state test across replications."""
 
 from __future__ import annotations
 
 import math
+from dataclasses import replace
+from types import SimpleNamespace
 
+import numpy as np
 import pytest
 
-from sdmnet.sim.stats import ratio_interval, t_interval, t_quantile
+from sdmnet.inputs.bundled import bundled_scenario
+from sdmnet.inputs.loaders import load_scenario
+from sdmnet.sim.engine import prepare, simulate_replication
+from sdmnet.sim.stats import ratio_interval, steady_state_check, t_interval, t_quantile
 
 # Upper critical values t(1 - alpha, df) of Student's t, as printed (3 decimals) in the
 # NIST/SEMATECH e-Handbook of Statistical Methods, section 1.3.6.7.2, "Critical Values of the
@@ -62,3 +68,38 @@ def test_ratio_interval_is_clipped_to_probabilities_and_skips_empty_replications
     iv = ratio_interval([0, 0, 1], [100, 0, 100])
     assert iv.low == 0.0 and iv.high <= 1.0
     assert iv.mean == pytest.approx(0.005)
+
+
+def test_replications_frozen_in_different_states_are_flagged():
+    # Batches of each replication agree with each other (blocking 0.1 or 0.6 throughout) but the
+    # replications do not: the analysis of variance rejects one steady state.
+    offered = [[[100] * 10] for _ in range(4)]
+    frozen = [SimpleNamespace(pair_batch_offered=o, pair_batch_blocked=[[b] * 10])
+              for o, b in zip(offered, (10, 60, 11, 59))]  # fmt: skip
+    check = steady_state_check(frozen)
+    assert not check.steady and check.p_value < 1e-10
+
+
+def test_replications_of_one_steady_state_pass():
+    # Binomial batches with the same blocking in every replication: no flag (seeded draws).
+    rng = np.random.default_rng(3)
+    recs = [
+        SimpleNamespace(
+            pair_batch_offered=[[200] * 10, [100] * 10],
+            pair_batch_blocked=[rng.binomial(200, 0.2, 10).tolist(), rng.binomial(100, 0.05, 10).tolist()],
+        )
+        for _ in range(5)
+    ]
+    assert steady_state_check(recs).steady
+
+
+def test_locking_fiber_grooming_is_flagged_and_provisioned_fibers_are_not():
+    # The demo's fiber switching with fibers lit by the first demand and freed by the last one
+    # locks in (which pairs hold fibers is set by the warm-up); provisioned fiber paths do not.
+    sc = load_scenario(bundled_scenario("demo"))
+    arch = next(a for a in sc.architectures if a.switching == "fiber" and a.share)
+    setup = prepare(sc, arch)
+    for provisioned, steady in ((False, False), (True, True)):
+        run = replace(setup, provisioned_fibers=provisioned)
+        recs = [simulate_replication(run, 80.0, sc.seed, r, 4000, 1000) for r in range(4)]
+        assert steady_state_check(recs).steady is steady

@@ -72,6 +72,8 @@ SUMMARY_COLUMNS = [
     "cores_per_unit",
     "unit_gbps",
     "unrouted_pairs",
+    "steady_state",
+    "steady_state_p",
 ]
 
 FLOAT_FORMAT = "%.10g"
@@ -138,6 +140,9 @@ def summary_table(
                 "cores_per_unit": unit.cores_per_unit,
                 "unit_gbps": unit.unit_gbps,
                 "unrouted_pairs": len(setup.unrouted_pairs),
+                # Replications that disagree beyond their own batches (sdmnet.sim.stats).
+                "steady_state": "yes" if p.steady_state.steady else "no",
+                "steady_state_p": p.steady_state.p_value,
             }
         )
     return pd.DataFrame(rows, columns=SUMMARY_COLUMNS)

@@ -44,6 +44,8 @@ from .provisioning import provision_fiber_paths
 __all__ = ["EngineSetup", "ReplicationRecord", "prepare", "simulate_replication", "replication_seed", "fiber_plan"]
 
 _BATCH = 4096
+# Batches the measured arrivals of a replication are split into for the steady-state test.
+STEADY_BATCHES = 10
 
 
 @dataclass(frozen=True)
@@ -156,6 +158,10 @@ class ReplicationRecord:
     cable_utilisation: list[float]
     sim_time: float
     wall_time_s: float = field(default=0.0, compare=False)
+    # Offered and blocked requests per pair in each of STEADY_BATCHES equal batches of the
+    # measured arrivals (for the steady-state test of sdmnet.sim.stats).
+    pair_batch_offered: list[list[int]] = field(default_factory=list)
+    pair_batch_blocked: list[list[int]] = field(default_factory=list)
     ended_empty: bool | None = None
 
     def to_dict(self) -> dict:
@@ -274,6 +280,7 @@ def _arrivals(
     measured: range,
     class_offered: np.ndarray,
     pair_offered: np.ndarray,
+    pair_batch_offered: np.ndarray | None = None,
 ) -> Iterator[tuple[float, int, int, int, int, float]]:
     """Endless ``(time, pair, size class, site a, site b, holding time)`` arrival records.
 
@@ -304,6 +311,11 @@ def _arrivals(
             if low < high:
                 class_offered[:] += np.bincount(sizes[low:high], minlength=len(class_offered))
                 pair_offered[:] += np.bincount(pairs[low:high], minlength=len(pair_offered))
+                if pair_batch_offered is not None:
+                    # Measured arrival i falls in batch i * batches // measured.
+                    index = np.arange(first + low, first + high) - measured.start
+                    batch = index * pair_batch_offered.shape[1] // len(measured)
+                    np.add.at(pair_batch_offered, (pairs[low:high], batch), 1)
             first += _BATCH
             yield zip(
                 times.tolist(), pairs.tolist(), sizes.tolist(), site_a[pairs].tolist(), site_b[pairs].tolist(),
@@ -581,9 +593,13 @@ def simulate_replication(
     nclass, npair, nsite, ncable = len(sizes), len(setup.pairs), len(setup.sites), len(setup.cables)
     class_offered = np.zeros(nclass, dtype=np.int64)
     pair_offered = np.zeros(npair, dtype=np.int64)
+    batches = STEADY_BATCHES if requests >= STEADY_BATCHES else 0
+    pair_batch_offered = np.zeros((npair, batches), dtype=np.int64)
+    pair_batch_blocked = [[0] * batches for _ in range(npair)]
     arrivals = _arrivals(
-        replication_seed(seed, replication), setup, rate, range(warmup, warmup + requests), class_offered, pair_offered
-    )
+        replication_seed(seed, replication), setup, rate, range(warmup, warmup + requests), class_offered,
+        pair_offered, pair_batch_offered if batches else None,
+    )  # fmt: skip
     env = simpy.Environment()
     schedule = env.schedule
     state: UnitState | FiberState
@@ -828,6 +844,8 @@ def simulate_replication(
                     class_blocked[k] += 1
                     pair_blocked[p] += 1
                     blocked_gbps += sizes[k]
+                    if batches:
+                        pair_batch_blocked[p][(m - 1) * batches // requests] += 1
                 if observer is not None:
                     observer("block", (p, k))
             else:
@@ -868,6 +886,8 @@ def simulate_replication(
         class_blocked=class_blocked,
         pair_offered=pair_offered.tolist(),
         pair_blocked=pair_blocked,
+        pair_batch_offered=pair_batch_offered.tolist(),
+        pair_batch_blocked=pair_batch_blocked,
         transceivers_peak=modules_peak,
         transceivers_mean=(modules * m + modules_stamp) / measured,
         lanes_peak=lanes_peak,

@@ -15,10 +15,20 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
+from scipy.special import fdtrc
 
 from .engine import ReplicationRecord
 
-__all__ = ["Interval", "t_quantile", "t_interval", "ratio_interval", "PointSummary", "summarize_point"]
+__all__ = [
+    "Interval",
+    "t_quantile",
+    "t_interval",
+    "ratio_interval",
+    "SteadyStateCheck",
+    "steady_state_check",
+    "PointSummary",
+    "summarize_point",
+]
 
 
 @dataclass(frozen=True)
@@ -101,6 +111,77 @@ def ratio_interval(numerators: Sequence[float], denominators: Sequence[float], c
 
 
 @dataclass(frozen=True)
+class SteadyStateCheck:
+    """Whether the replications of one point agree with their own within-run spread.
+
+    Attributes
+    ----------
+    steady : bool
+        False when some figure's replications disagree far more than their batches allow.
+    p_value : float
+        Smallest p-value of the tests (before the Bonferroni correction), 1 with no test.
+    worst : str
+        ``"network"`` or ``"pair N"``: the figure with that p-value ("" with no test).
+    """
+
+    steady: bool
+    p_value: float
+    worst: str
+
+
+# Family-wise level of the steady-state tests of one point: a flag means a disagreement that
+# chance explains once in ten thousand points.
+STEADY_STATE_ALPHA = 1e-4
+
+
+def _between_within_p(blocked: np.ndarray, offered: np.ndarray) -> float:
+    """One-way analysis of variance of batch blocking across replications (rows): the p-value of
+    F = (between-replication mean square) / (within-replication mean square), or 1 when the
+    batches give no spread to compare with."""
+    ok = offered > 0
+    if ok.shape[0] < 2 or ok.sum(axis=1).min() < 2:
+        return 1.0
+    x = np.where(ok, blocked / np.where(ok, offered, 1), np.nan)
+    n_rep = x.shape[0]
+    counts = ok.sum(axis=1)
+    means = np.nanmean(x, axis=1)
+    grand = np.nansum(x) / counts.sum()
+    between = float(np.sum(counts * (means - grand) ** 2)) / (n_rep - 1)
+    within_df = int(counts.sum() - n_rep)
+    within = float(np.nansum((x - means[:, None]) ** 2)) / within_df
+    if between == 0:
+        return 1.0
+    if within == 0:
+        return 0.0
+    return float(fdtrc(n_rep - 1, within_df, between / within))
+
+
+def steady_state_check(records: Sequence[ReplicationRecord], alpha: float = STEADY_STATE_ALPHA) -> SteadyStateCheck:
+    """Test whether the replications of one point disagree more than chance allows.
+
+    Each replication's measured arrivals are split into equal batches (the engine counts offered
+    and blocked requests per pair and batch).  If every replication samples the same steady
+    state, the spread of the replication means is what the spread of the batches within each
+    replication predicts; a run whose state is frozen by its start (a pair blocked near 0 in
+    some replications and near 1 in others) shows a between-replication spread far above it.
+    The network blocking and each pair's are tested by one-way analysis of variance (F test,
+    Fisher; any statistics text, e.g. Montgomery, *Design and Analysis of Experiments*, ch. 3),
+    at level ``alpha`` over all tests together (Bonferroni).  Batch means inside one run are
+    slightly positively correlated, which makes the test a little quick to flag; the small
+    level keeps that from mattering.
+    """
+    recs = [r for r in records if r.pair_batch_offered]
+    if len(recs) < 2:
+        return SteadyStateCheck(True, 1.0, "")
+    offered = np.array([r.pair_batch_offered for r in recs], dtype=float)  # (R, pairs, batches)
+    blocked = np.array([r.pair_batch_blocked for r in recs], dtype=float)
+    tests = [("network", _between_within_p(blocked.sum(axis=1), offered.sum(axis=1)))]
+    tests += [(f"pair {i}", _between_within_p(blocked[:, i], offered[:, i])) for i in range(offered.shape[1])]
+    worst, p = min(tests, key=lambda t: t[1])
+    return SteadyStateCheck(p >= alpha / len(tests), p, worst)
+
+
+@dataclass(frozen=True)
 class PointSummary:
     """One (architecture, load) point aggregated over its replications.
 
@@ -132,6 +213,7 @@ class PointSummary:
     site_lanes_histogram: tuple[dict[int, int], ...]
     site_mimo_lanes_histogram: tuple[dict[int, int], ...]
     cable_utilisation: tuple[float, ...]
+    steady_state: SteadyStateCheck = SteadyStateCheck(True, 1.0, "")
 
 
 def summarize_point(records: Sequence[ReplicationRecord], confidence: float = 0.95) -> PointSummary:
@@ -177,6 +259,7 @@ def summarize_point(records: Sequence[ReplicationRecord], confidence: float = 0.
         site_lanes_histogram=_pooled([r.site_lanes_histogram for r in recs]),
         site_mimo_lanes_histogram=_pooled([r.site_mimo_lanes_histogram for r in recs]),
         cable_utilisation=tuple(float(x) for x in np.mean([r.cable_utilisation for r in recs], axis=0)),
+        steady_state=steady_state_check(recs),
     )
 
 

@@ -23,7 +23,7 @@ from .results import RESULT_TABLES, ResultFolder, forecast_totals, read_csv
 __all__ = ["Section", "SECTIONS", "build_sections"]
 
 # summary.csv's contract columns (docs/model.md, section 5: up to fiber_km) and the mean transceivers.
-SUMMARY_SHOWN = SUMMARY_COLUMNS[: SUMMARY_COLUMNS.index("fiber_km") + 1] + ["transceivers_mean"]
+SUMMARY_SHOWN = SUMMARY_COLUMNS[: SUMMARY_COLUMNS.index("fiber_km") + 1] + ["transceivers_mean", "steady_state"]
 
 # run.json's scenario is the Scenario dataclass written with sorted keys: show it in field order.
 _SCENARIO_ORDER = tuple(f.name for f in fields(Scenario))
@@ -88,6 +88,14 @@ def _findings(summary: pd.DataFrame) -> dict[str, Any] | None:
     }
 
 
+def _unsteady(summary: pd.DataFrame) -> list[str]:
+    """``architecture at load`` of every point whose replications disagree beyond their batches."""
+    if "steady_state" not in summary.columns:
+        return []
+    rows = summary[summary["steady_state"].astype(str) == "no"]
+    return [f"{a} at {number_text(float(x))} Erlang" for a, x in zip(rows["architecture"], rows["load_erlang"])]
+
+
 def simulation(res: ResultFolder) -> Section | None:
     """Blocking per architecture and load: findings, the blocking figures, summary.csv."""
     summary = res.table("summary")
@@ -128,6 +136,7 @@ def simulation(res: ResultFolder) -> Section | None:
             "findings": _findings(summary),
             "skipped": skipped,
             "figures": drawn,
+            "unsteady": _unsteady(summary),
             "table": table(summary, SUMMARY_SHOWN, caption="Results per architecture and load (summary.csv)"),
         },
     )

@@ -64,11 +64,14 @@ def _out(args: argparse.Namespace, verb: str) -> Path:
 
 
 def cmd_check(args: argparse.Namespace) -> int:
-    from .inputs.describe import describe
+    from .inputs.describe import describe, warnings_for
     from .inputs.loaders import load_any
 
-    text = describe(load_any(Path(args.file)))
+    checked = load_any(Path(args.file))
+    text = describe(checked)
     print(text)
+    for file, where, what in warnings_for(checked):
+        print(f"warning: {file}: {where}: {what}", file=sys.stderr)
     if args.out:  # only on request: checking a file should not litter results/
         from .output.manifest import ensure_out_dir
 

@@ -5,9 +5,10 @@ from __future__ import annotations
 from dataclasses import fields
 
 from ..network.architectures import unit_geometry, why_not_allowed
+from ..optics import defaults
 from .model import Architecture, FiberType, Scenario, Topology
 
-__all__ = ["describe", "describe_topology", "describe_scenario", "fiber_pair_km"]
+__all__ = ["describe", "describe_topology", "describe_scenario", "fiber_pair_km", "warnings_for"]
 
 INDENT = "  "
 
@@ -25,6 +26,37 @@ def describe(obj: Topology | Scenario) -> str:
     if isinstance(obj, Topology):
         return describe_topology(obj)
     raise TypeError(f"describe() takes a Topology or a Scenario, not {type(obj).__name__}")
+
+
+def warnings_for(obj: Topology | Scenario) -> list[tuple[str, str, str]]:
+    """``(file, where, what)`` for what is allowed but doubtful in ``obj`` (``sdmnet check`` prints
+    them as ``warning: FILE: WHERE: what``).
+
+    A weakly coupled fiber type with more cores than a standard 125 um cladding fits (about 4 for
+    wideband use, 8 for the O band only: common practice, no source), unless it states a larger
+    ``cladding_um``.
+    """
+    topology = obj.topology if isinstance(obj, Scenario) else obj
+    file = str(topology.source) if topology.source is not None else "<topology>"
+    found = []
+    for fiber in topology.fiber_types.values():
+        cladding = fiber.cladding_um
+        large = cladding is not None and cladding > defaults.CLADDING_STANDARD_UM
+        if fiber.coupling != "weak" or fiber.cores <= defaults.WEAK_CORES_IN_STANDARD_CLADDING or large:
+            continue
+        stated = "no cladding_um given" if cladding is None else f"cladding {_num(cladding)} um"
+        found.append(
+            (
+                file,
+                f"fiber_types.{fiber.name}",
+                f"{fiber.cores} weakly coupled cores with {stated}: a standard "
+                f"{_num(defaults.CLADDING_STANDARD_UM)} um cladding fits about "
+                f"{defaults.WEAK_CORES_IN_STANDARD_CLADDING} for wideband use "
+                f"({defaults.WEAK_CORES_IN_STANDARD_CLADDING_O_BAND} for the O band only); "
+                f"set cladding_um if this is a larger-cladding design",
+            )
+        )
+    return found
 
 
 def fiber_pair_km(topology: Topology) -> float:
@@ -60,6 +92,10 @@ def _fiber_type_line(fiber: FiberType) -> str:
         ("DGD", fiber.dgd_ps_per_km, "ps/km"),
         ("crosstalk", fiber.crosstalk_db_per_km, "dB after 1 km"),
         ("MDL", fiber.mdl_db_per_sqrt_km, "dB/sqrt(km)"),
+        ("group crosstalk", fiber.group_crosstalk_db_per_km, "dB after 1 km"),
+        ("effective area", fiber.effective_area_um2, "um^2"),
+        ("dispersion", fiber.dispersion_ps_per_nm_km, "ps/(nm km)"),
+        ("cladding", fiber.cladding_um, "um"),
     )
     parts += [f"{label} {_num(value)} {unit}" for label, value, unit in figures if value is not None]
     return f"{fiber.name}: " + ", ".join(parts)
@@ -81,6 +117,8 @@ def _topology_lines(topology: Topology) -> list[str]:
                 text += f"  traffic weight {_num(site.traffic_weight)}"
             if site.x_km is not None and site.y_km is not None:
                 text += f"  at ({_num(site.x_km)}, {_num(site.y_km)}) km"
+            if not site.transit:
+                text += "  no transit"
             lines.append(text.rstrip())
 
     lines.append(f"{INDENT}fiber types: {len(topology.fiber_types)}")
@@ -160,6 +198,17 @@ def describe_scenario(scenario: Scenario) -> str:
             lines.append(f"{INDENT * 3}{a}-{b}: weight {_num(weight)}")
 
     lines += _field_lines("transceiver", scenario.transceiver)
+    lines += _field_lines("line", scenario.line)
+    if scenario.transceivers:
+        lines.append(f"{INDENT}transceiver classes: {len(scenario.transceivers)}")
+        for cls in scenario.transceivers:
+            text = (
+                f"{INDENT * 2}{cls.name}: {_num(cls.lane_gbps)} Gb/s at {_num(cls.symbol_rate_gbaud)} GBd, "
+                f"needs {_num(cls.required_osnr_db)} dB OSNR"
+            )
+            extras = (("reach", cls.reach_km, " km"), ("power", cls.power_w, " W"), ("cost", cls.cost, ""))
+            text += "".join(f", {label} {_num(v)}{unit}" for label, v, unit in extras if v is not None)
+            lines.append(text)
     run = scenario.run
     lines.append(
         f"{INDENT}run: {_count(run.replications, 'replication')} x ({run.warmup} warm-up + {run.requests} measured "

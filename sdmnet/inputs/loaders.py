@@ -384,6 +384,7 @@ LIMITS: dict[tuple[type, str], Limit] = {
     (LineSpec, "fifo_crosstalk_db"): _below(0),
     (LineSpec, "wss_pass_db"): _at_least(0),
     (LineSpec, "fiber_xc_db"): _at_least(0),
+    (LineSpec, "band_ghz"): _greater(0),
     (TransceiverClass, "lane_gbps"): _greater(0),
     (TransceiverClass, "symbol_rate_gbaud"): _greater(0),
     (TransceiverClass, "reach_km"): _greater(0),
@@ -981,6 +982,7 @@ def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
     forecast = _forecast(doc, data["forecast"]) if "forecast" in data else None
     line = _section(doc, data, "line", LineSpec)
     transceivers = _transceiver_classes(doc, data["transceivers"]) if "transceivers" in data else ()
+    _check_channel_slots(doc, topology, architectures, line, transceiver, transceivers)
     costs = _item_table(doc, data, "costs")
     power = _item_table(doc, data, "power")
     return Scenario(
@@ -999,6 +1001,39 @@ def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
         costs=costs,
         power=power,
     )
+
+
+def _check_channel_slots(
+    doc: _Doc,
+    topology: Topology,
+    architectures: tuple[Architecture, ...],
+    line: LineSpec,
+    transceiver: TransceiverSpec,
+    classes: tuple[TransceiverClass, ...],
+) -> None:
+    """Every fiber type in use fits its channels in the band, and every class's symbol rate fits
+    the channel slot (``LineSpec.channel_slot_ghz``)."""
+    used = list(dict.fromkeys(a.fiber_type for a in architectures if a.fiber_type is not None))
+    if any(a.fiber_type is None for a in architectures):
+        used += [c.fiber_type for c in topology.cables if c.fiber_type not in used]
+    rates = [(f"transceivers[{i}].symbol_rate_gbaud", c.symbol_rate_gbaud) for i, c in enumerate(classes)]
+    rates = rates or [("transceiver.symbol_rate_gbaud", transceiver.symbol_rate_gbaud)]
+    for name in dict.fromkeys(used):
+        fiber = topology.fiber_types[name]
+        slot = line.channel_slot_ghz(fiber.channels)
+        if slot <= 0:
+            doc.fail(
+                "line.band_ghz",
+                f"fiber type '{name}' has {fiber.channels} channels per core, more than the "
+                f"{line.band_ghz:g} GHz band holds on the 12.5 GHz grid",
+            )
+        for where, rate in rates:
+            if rate > slot:
+                doc.fail(
+                    where,
+                    f"{_number(rate)} GBd does not fit the {slot:g} GHz channel slot of fiber type '{name}' "
+                    f"({line.band_ghz:g} GHz band / {fiber.channels} channels)",
+                )
 
 
 def _transceiver_classes(doc: _Doc, value: Any) -> tuple[TransceiverClass, ...]:

@@ -10,6 +10,7 @@ scenario's own holding-time unit, losses in dB.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Literal
@@ -82,8 +83,9 @@ class FiberType:
     mdl_db_per_sqrt_km : float or None
         Mode-dependent loss coefficient (random coupling); MDL = coef * sqrt(L).
     effective_area_um2 : float or None
-        Effective area of one core (of one coupled group's modes, for random coupling), for the
-        nonlinear interference of the line model; None: the default of :mod:`sdmnet.optics.defaults`.
+        Effective area of one core at 1550 nm, for the nonlinear interference of the line model
+        (random coupling spreads a channel over its group; docs/physics.md says how that
+        enters); None: the G.652.D default of :mod:`sdmnet.optics.defaults`.
     dispersion_ps_per_nm_km : float or None
         Chromatic dispersion at 1550 nm; None: the default.
     cladding_um : float or None
@@ -246,13 +248,18 @@ class TransceiverSpec:
     reach_km : float
         Longest path the module is specified for.
     power_budget_db : float
-        Loss the link budget allows between transmitter and receiver.
+        Loss budget of an unamplified link.  Read for old scenarios but no longer a feasibility
+        limit: every cable is an amplified line whose OSNR and GSNR decide (docs/physics.md).
     max_mimo_taps : int
         Longest MIMO equalizer (taps, at the sample rate) the DSP supports.
     crosstalk_limit_db : float
-        Highest accumulated inter-core crosstalk the modulation tolerates (dB, negative).
+        Highest accumulated inter-core crosstalk the modulation tolerates (dB, negative).  Read
+        for old scenarios but no longer a feasibility limit: crosstalk is noise in the GSNR.
     mdl_limit_db : float
         Highest accumulated mode-dependent loss tolerated.
+    required_osnr_db : float or None
+        OSNR (0.1 nm) the module needs when this section stands for the only transceiver class;
+        None: derived from the lane rate and symbol rate (:mod:`sdmnet.optics.classes`).
     module_power_w : float
         Electrical power of a single-lane module (optics and its own 2x2 DSP).
     mimo_pj_per_cmul : float
@@ -286,6 +293,7 @@ class TransceiverSpec:
     mdl_limit_db: float = defaults.MDL_LIMIT_DB
     module_power_w: float = defaults.MODULE_POWER_W
     mimo_pj_per_cmul: float = defaults.MIMO_PJ_PER_CMUL
+    required_osnr_db: float | None = None
     switch_insertion_loss_db: float = defaults.SWITCH_INSERTION_LOSS_DB
     connector_loss_db: float = defaults.CONNECTORS_PER_CABLE * defaults.CONNECTOR_LOSS_DB
     splice_loss_db: float = defaults.SPLICE_LOSS_DB
@@ -314,8 +322,9 @@ class LineSpec:
         Longest amplifier span.
     amplifier_nf_db : float
         Noise figure of every amplifier.
-    launch_dbm : float
-        Launch power per channel per core.
+    launch_dbm : float or None
+        Launch power per channel per core into every span; None: each span at its own optimum
+        under the GN model (docs/physics.md).
     amplifier : {"per-core", "multicore"}
         One amplifier per core, or one multicore amplifier per fiber sharing its pumps.
     margin_db : float
@@ -326,17 +335,28 @@ class LineSpec:
         Loss of one pass through a wavelength-selective switch.
     fiber_xc_db : float
         Loss of one pass through a fiber cross-connect.
+    band_ghz : float
+        Optical band shared by the channels of one core; a fiber type's channel slot is
+        ``band / channels`` rounded down to the 12.5 GHz grid (:meth:`channel_slot_ghz`).
     """
 
     span_km: float = defaults.SPAN_KM
     amplifier_nf_db: float = defaults.AMPLIFIER_NF_DB
-    launch_dbm: float = defaults.LAUNCH_DBM
+    launch_dbm: float | None = defaults.LAUNCH_DBM
     amplifier: Amplifier = "per-core"
     margin_db: float = defaults.OSNR_MARGIN_DB
     fifo_loss_db: float = defaults.FIFO_LOSS_DB
     fifo_crosstalk_db: float = defaults.FIFO_CROSSTALK_DB
     wss_pass_db: float = defaults.WSS_PASS_DB
     fiber_xc_db: float = defaults.FIBER_XC_DB
+    band_ghz: float = defaults.BAND_GHZ
+
+    def channel_slot_ghz(self, channels: int) -> float:
+        """Width of one channel slot when ``channels`` share the band: ``band / channels`` rounded
+        down to a multiple of 12.5 GHz (ITU-T G.694.1 flexible grid); 0 when they do not fit."""
+        grid = defaults.GRID_GRANULARITY_GHZ
+        # The tolerance keeps 4800 / 64 = 75 GHz at 75 despite float noise.
+        return grid * math.floor(self.band_ghz / channels / grid + 1e-9)
 
 
 @dataclass(frozen=True)

@@ -1,6 +1,7 @@
 """Candidate paths between datacenter pairs: the k shortest by length (networkx).
 
-Paths are computed once per topology and architecture and then filtered by the physical layer
+Routes pass only through sites open to transit (``Site.transit``).  Paths are computed once per
+topology and architecture and then filtered by the physical layer
 (:mod:`sdmnet.optics.physics`); the engine tries the feasible ones in order of length.
 """
 
@@ -48,11 +49,15 @@ def k_shortest_routes(topology: Topology, a: str, b: str, k: int) -> list[Route]
     """The ``k`` shortest loop-free routes from ``a`` to ``b`` by length.
 
     Uses :func:`networkx.shortest_simple_paths` (Yen's algorithm); ties in length keep
-    networkx's order, which is deterministic for a given topology file.
+    networkx's order, which is deterministic for a given topology file.  No route passes
+    through a site with ``transit = false`` (such a site is only ever an end).
     """
     import networkx as nx  # here, not at the top: checking a file needs no networkx
 
     g = topology.graph()
+    closed = [s.id for s in topology.sites if not s.transit and s.id not in (a, b)]
+    if closed:
+        g = g.subgraph(n for n in g if n not in closed)
     if a not in g or b not in g or not nx.has_path(g, a, b):
         return []
     routes = []

@@ -56,6 +56,24 @@ __all__ = [
     "FIFO_CROSSTALK_DB",
     "WSS_PASS_DB",
     "FIBER_XC_DB",
+    "WSS_PASSES_EXPRESS",
+    "BAND_GHZ",
+    "GRID_GRANULARITY_GHZ",
+    "PLANCK_J_S",
+    "SPEED_OF_LIGHT_M_S",
+    "REFERENCE_WAVELENGTH_NM",
+    "OSNR_REFERENCE_GHZ",
+    "NONLINEAR_INDEX_M2_PER_W",
+    "EFFECTIVE_AREA_G652D_UM2",
+    "DISPERSION_G652D_PS_PER_NM_KM",
+    "EFFECTIVE_AREA_G654E_UM2",
+    "DISPERSION_G654E_PS_PER_NM_KM",
+    "EFFECTIVE_AREA_WEAK_MCF_UM2",
+    "GROUP_CROSSTALK_DB_PER_KM",
+    "CLADDING_STANDARD_UM",
+    "WEAK_CORES_IN_STANDARD_CLADDING",
+    "WEAK_CORES_IN_STANDARD_CLADDING_O_BAND",
+    "REQUIRED_OSNR_400ZR_DB",
 ]
 
 # --------------------------------------------------------------------------------------------
@@ -189,16 +207,91 @@ SPLICE_SPACING_KM = 5.0
 SPAN_KM = 80.0
 # EDFA noise figure: from memory (4.5-5.5 dB typical of datasheets).
 AMPLIFIER_NF_DB = 5.0
-# Launch power per channel per core: from memory (about 0 dBm per channel on 50-75 GHz grids).
-LAUNCH_DBM = 0.0
-# OSNR margin kept above a class's requirement: common practice, no source.
+# Launch power per channel per core: None means each span is launched at its own optimum under
+# the GN model, P_opt = (P_ASE / (2 eta))^(1/3) (P. Poggiolini, JLT 30(24), 2012; setting every
+# span to its own optimum is the "LOGO" strategy of Poggiolini et al., OFC 2013, from memory).
+LAUNCH_DBM: float | None = None
+# OSNR margin kept above a class's requirement (ageing, repairs, filtering not modelled):
+# common practice, no source.
 OSNR_MARGIN_DB = 2.0
-# Fan-in/fan-out device of a weakly coupled multicore fiber: from memory (0.5-1.5 dB loss,
-# -40 to -60 dB crosstalk).
+# Fan-in/fan-out device of a multicore fiber.  A recent research device reaches about 0.6 dB
+# average coupling loss and crosstalk below -65 dB, and reports about 20 dB more crosstalk with
+# the common bridge-fiber construction (verified: W. Ji et al., "Spacing-tailored multicore fiber
+# interface for efficient FIFO devices", JLT 40, 2022, abstract).  Our defaults sit on the side of
+# deployed parts: 1 dB and -50 dB (assumption informed by that source; the issue's 0.5-1.5 dB and
+# -40 to -60 dB are from memory).
 FIFO_LOSS_DB = 1.0
 FIFO_CROSSTALK_DB = -50.0
 # One pass through a wavelength-selective switch: from memory (typical datasheet 5-7 dB).
 WSS_PASS_DB = SWITCH_INSERTION_LOSS_DB
+# WSS passes of a route-and-select node: one at the input degree and one at the output degree
+# for an express channel, one for add and one for drop: common practice, no source.
+WSS_PASSES_EXPRESS = 2
 # One pass through a fiber cross-connect (optical circuit switch): from memory (1-3 dB).
 FIBER_XC_DB = 2.0
+# Optical band available to the channels of one core: the C band, about 4.8 THz (64 x 75 GHz or
+# 96 x 50 GHz): from memory.
+BAND_GHZ = 4800.0
+# Slot widths of the flexible grid are multiples of 12.5 GHz: ITU-T G.694.1 (flexible DWDM grid;
+# named in docs/REFERENCES, clause not re-read).
+GRID_GRANULARITY_GHZ = 12.5
 
+# --------------------------------------------------------------------------------------------
+# Physical constants and the OSNR reference bandwidth
+# --------------------------------------------------------------------------------------------
+
+# Exact by the definition of the SI (2019): Planck constant and speed of light.
+PLANCK_J_S = 6.62607015e-34
+SPEED_OF_LIGHT_M_S = 299_792_458.0
+# Wavelength at which fiber figures are quoted and OSNR is referred: 1550 nm (common practice).
+REFERENCE_WAVELENGTH_NM = 1550.0
+# OSNR reference bandwidth, 0.1 nm at 1550 nm = 12.48 GHz, quoted as 12.5 GHz: common practice
+# (the 0.1 nm convention of OSNR specifications).
+OSNR_REFERENCE_GHZ = 12.5
+# Nonlinear refractive index of silica: from memory (2.6e-20 m^2/W, G. P. Agrawal, "Nonlinear
+# Fiber Optics"; published values lie between about 2.2e-20 and 2.7e-20).
+NONLINEAR_INDEX_M2_PER_W = 2.6e-20
+
+# --------------------------------------------------------------------------------------------
+# Nonlinearity and dispersion of fiber cores (fiber-type keys effective_area_um2,
+# dispersion_ps_per_nm_km; a fiber type without them uses the G.652.D figures)
+# --------------------------------------------------------------------------------------------
+
+# G.652.D-class fiber at 1550 nm: effective area about 80 um^2 (from memory; G.652 specifies the
+# mode field diameter, 8.6-9.5 um at 1310 nm, not the area) and chromatic dispersion
+# 17 ps/(nm km) (verified: "+17 ps/(km nm)" at 1550 nm for standard single-mode fiber in
+# M.-J. Li and H. Chen (Corning), "New optical fibers for high-capacity transmission systems",
+# 2014 review, section 1).
+EFFECTIVE_AREA_G652D_UM2 = 80.0
+DISPERSION_G652D_PS_PER_NM_KM = 17.0
+# G.654.E-class fiber: effective area about 125 um^2 (G.654.E's nominal range is about 115-135
+# um^2) and dispersion about 21 ps/(nm km) at 1550 nm (both from memory; ITU-T G.654 not re-read).
+EFFECTIVE_AREA_G654E_UM2 = 125.0
+DISPERSION_G654E_PS_PER_NM_KM = 21.0
+# Weakly coupled trench-assisted 7-core fiber: "effective areas larger than 120 um^2" (verified:
+# T. Hayashi et al., Opt. Express 20(26) B94, 2012, abstract: the fiber of the crosstalk default).
+EFFECTIVE_AREA_WEAK_MCF_UM2 = 120.0
+# Crosstalk between the coupled groups of a randomly coupled fiber with several groups:
+# assumption: the groups are kept apart like the cores of a weakly coupled fiber, so the weak
+# crosstalk default applies (no published multi-group figure verified).
+GROUP_CROSSTALK_DB_PER_KM = CROSSTALK_WEAK_DB_PER_KM
+
+# --------------------------------------------------------------------------------------------
+# Cladding
+# --------------------------------------------------------------------------------------------
+
+# Standard cladding diameter of telecom fiber: 125 um (from memory, ITU-T G.652).
+CLADDING_STANDARD_UM = 125.0
+# Weakly coupled cores a standard 125 um cladding fits with low crosstalk and bend loss: about 4
+# for wideband (C+L) use, about 8 for the O band only: common practice, no source.
+WEAK_CORES_IN_STANDARD_CLADDING = 4
+WEAK_CORES_IN_STANDARD_CLADDING_O_BAND = 8
+
+# --------------------------------------------------------------------------------------------
+# Transceiver class requirements
+# --------------------------------------------------------------------------------------------
+
+# Required OSNR (0.1 nm) of a 400ZR module: 26 dB.  Verified only in a secondary source (an
+# engineering article on 400ZR performance giving 26 dB minimum OSNR tolerance and 120 km
+# amplified reach); the OIF 400ZR implementation agreement itself was not re-read.
+REQUIRED_OSNR_400ZR_DB = 26.0

@@ -3,24 +3,38 @@
 For every architecture and datacenter pair, the k shortest routes
 (:func:`sdmnet.network.routing.k_shortest_routes` on the architecture's view of the topology) are
 evaluated with :func:`sdmnet.optics.physics.evaluate_path` for the architecture's unit on each cable's
-fiber type.  A route whose cables give different unit sizes, or whose fiber type does not allow
-the architecture, is infeasible with that reason.
+fiber type, the scenario's amplified line and its transceiver classes.  A route whose cables give
+different unit sizes, or whose fiber type does not allow the architecture, is infeasible with
+that reason.  The feasible routes handed to the engine carry the class that closes each
+(:class:`ClassedRoute`), so planning and costing can read it as plain data.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Iterator
-from dataclasses import replace
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass, replace
 
 import pandas as pd
 
-from ..inputs.model import Architecture, Scenario, Topology, TransceiverSpec
+from ..inputs.model import Architecture, LineSpec, Scenario, Topology, TransceiverClass, TransceiverSpec
 from ..network.architectures import unit_geometry, why_not_allowed
 from ..network.routing import Route, datacenter_pairs, k_shortest_routes
+from .classes import scenario_classes
 from .physics import PathPhysics, evaluate_path, mimo_group
 
-__all__ = ["PATH_COLUMNS", "evaluate_route", "evaluated_routes", "path_table", "feasible_routes"]
+__all__ = [
+    "PATH_COLUMNS",
+    "NO_CLASS",
+    "ClassedRoute",
+    "evaluate_route",
+    "evaluated_routes",
+    "path_table",
+    "feasible_routes",
+]
+
+#: The ``transceiver_class`` of a path no class closes, in tables.
+NO_CLASS = "none"
 
 PATH_COLUMNS: tuple[str, ...] = (
     "architecture",
@@ -35,9 +49,30 @@ PATH_COLUMNS: tuple[str, ...] = (
     "mimo_taps",
     "crosstalk_db",
     "mdl_db",
+    "spans",
+    "osnr_db",
+    "gsnr_db",
+    "margin_db",
+    "transceiver_class",
     "feasible",
     "reason",
 )
+
+
+@dataclass(frozen=True)
+class ClassedRoute(Route):
+    """A feasible route with the transceiver class that closes it (the cheapest that does).
+
+    Attributes
+    ----------
+    transceiver_class : str
+        Name of the class.
+    lane_gbps : float
+        Its lane rate: a route's unit capacity follows it.
+    """
+
+    transceiver_class: str = ""
+    lane_gbps: float = 0.0
 
 
 def _unit_cores(arch: Architecture, topology: Topology, route: Route, lane_gbps: float) -> tuple[int | None, str]:
@@ -57,7 +92,14 @@ def _unit_cores(arch: Architecture, topology: Topology, route: Route, lane_gbps:
     return next(iter(sizes)), ""
 
 
-def evaluate_route(topology: Topology, route: Route, arch: Architecture, transceiver: TransceiverSpec) -> PathPhysics:
+def evaluate_route(
+    topology: Topology,
+    route: Route,
+    arch: Architecture,
+    transceiver: TransceiverSpec,
+    line: LineSpec | None = None,
+    classes: Sequence[TransceiverClass] | None = None,
+) -> PathPhysics:
     """Physics of ``route`` for ``arch``'s unit; infeasible if the unit size is not unique.
 
     When the unit size is undefined (mixed sizes, or a fiber type that forbids the
@@ -66,10 +108,11 @@ def evaluate_route(topology: Topology, route: Route, arch: Architecture, transce
     """
     hops = [(topology.cables[i], topology.fiber_types[topology.cables[i].fiber_type]) for i in route.cables]
     cores, why = _unit_cores(arch, topology, route, transceiver.lane_gbps)
+    physics = {"line": line, "classes": classes, "switching": arch.switching}
     if cores is not None:
-        return evaluate_path(hops, transceiver, cores)
+        return evaluate_path(hops, transceiver, cores, **physics)
     # A stand-in unit as wide as the mixed cores, so no unit-width verdict is added to the reason.
-    phys = evaluate_path(hops, transceiver, mimo_group([f for _, f in hops]))
+    phys = evaluate_path(hops, transceiver, mimo_group([f for _, f in hops]), **physics)
     others = [phys.reason] if phys.reason else []
     return replace(phys, feasible=False, reason="; ".join([why, *others]))
 
@@ -79,9 +122,11 @@ def evaluated_routes(
 ) -> Iterator[tuple[str, str, list[tuple[Route, PathPhysics]]]]:
     """Per datacenter pair of ``arch``'s topology, its k shortest routes with their physics."""
     topology = scenario.topology_for(arch)
+    classes = scenario_classes(scenario)
     for a, b in datacenter_pairs(topology):
         routes = k_shortest_routes(topology, a, b, scenario.run.k_paths)
-        yield a, b, [(r, evaluate_route(topology, r, arch, scenario.transceiver)) for r in routes]
+        found = [(r, evaluate_route(topology, r, arch, scenario.transceiver, scenario.line, classes)) for r in routes]
+        yield a, b, found
 
 
 def _row(arch: Architecture, a: str, b: str, rank: int, route: Route, phys: PathPhysics) -> dict:
@@ -98,6 +143,11 @@ def _row(arch: Architecture, a: str, b: str, rank: int, route: Route, phys: Path
         "mimo_taps": phys.mimo_taps,
         "crosstalk_db": phys.crosstalk_db,
         "mdl_db": phys.mdl_db,
+        "spans": phys.spans,
+        "osnr_db": phys.osnr_db,
+        "gsnr_db": phys.gsnr_db,
+        "margin_db": phys.margin_db,
+        "transceiver_class": phys.transceiver_class or NO_CLASS,
         "feasible": phys.feasible,
         "reason": phys.reason,
     }
@@ -108,7 +158,9 @@ def path_table(scenario: Scenario) -> pd.DataFrame:
 
     Columns are :data:`PATH_COLUMNS`.  ``rank`` counts from 1 in order of length.  A pair with
     no route at all gets one row with rank 0, an empty path, NaN figures and the reason.
-    ``crosstalk_db`` is NaN (an empty cell in CSV) on paths without weakly coupled cables.
+    ``crosstalk_db`` is NaN (an empty cell in CSV) on paths whose signals have no neighbours.
+    OSNR, GSNR and margin are those of ``transceiver_class`` (the cheapest class that closes the
+    path), or, where it is ``"none"``, of the class closest to closing it.
     """
     rows = []
     for arch in scenario.architectures:
@@ -124,6 +176,8 @@ def path_table(scenario: Scenario) -> pd.DataFrame:
                         "path": "",
                         "hops": 0,
                         "mimo_taps": 0,
+                        "spans": 0,
+                        "transceiver_class": NO_CLASS,
                         "feasible": False,
                         "reason": f"no route between {a} and {b}",
                     }
@@ -136,5 +190,12 @@ def path_table(scenario: Scenario) -> pd.DataFrame:
 
 def feasible_routes(scenario: Scenario, arch: Architecture) -> dict[tuple[str, str], list[Route]]:
     """Per datacenter pair (in :func:`~sdmnet.network.routing.datacenter_pairs` order), the feasible
-    routes among the k shortest, in rank order; an empty list when none is feasible."""
-    return {(a, b): [r for r, phys in found if phys.feasible] for a, b, found in evaluated_routes(scenario, arch)}
+    routes among the k shortest, in rank order, each a :class:`ClassedRoute` naming its class;
+    an empty list when none is feasible."""
+    pairs = evaluated_routes(scenario, arch)
+    return {(a, b): [_classed(r, phys) for r, phys in found if phys.feasible] for a, b, found in pairs}
+
+
+def _classed(route: Route, phys: PathPhysics) -> ClassedRoute:
+    assert phys.transceiver_class is not None and phys.lane_gbps is not None  # feasible paths have a class
+    return ClassedRoute(route.sites, route.cables, route.length_km, phys.transceiver_class, phys.lane_gbps)

@@ -1,9 +1,10 @@
-"""Physical layer of a path: loss, delay spread, MIMO length, crosstalk, MDL, feasibility.
+"""Physical layer of a path: amplified line, OSNR and GSNR, delay spread, MIMO length, crosstalk,
+MDL, the transceiver class that closes it, feasibility.
 
-A path is a sequence of hops ``(Cable, FiberType)`` in path order.  :func:`evaluate_path` adds up
-what each cable contributes and checks the result against a
-:class:`~sdmnet.inputs.model.TransceiverSpec`.  :func:`mimo_cmul_per_bit` and :func:`module_power_w`
-price the MIMO equalizer that randomly coupled fiber needs.  Formulas, defaults and limits of
+A path is a sequence of hops ``(Cable, FiberType)`` in path order.  :func:`evaluate_path` builds
+its amplified line (spans and boosters, :mod:`sdmnet.optics.line`), adds up what each cable
+contributes and picks the cheapest transceiver class that closes it.  :func:`mimo_cmul_per_bit`
+and :func:`module_power_w` price the MIMO equalizer that randomly coupled fiber needs.  Formulas, defaults and limits of
 the model are written out in ``docs/physics.md``.
 
 Regimes (docs/model.md, section 1):
@@ -24,12 +25,25 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Literal
 
-from ..inputs.model import Cable, FiberType, TransceiverSpec
+from ..inputs.model import Cable, FiberType, LineSpec, TransceiverClass, TransceiverSpec
 from . import defaults
+from .classes import legacy_class
+from .line import (
+    SpanFiber,
+    amplifier_ase_w,
+    db_to_linear,
+    linear_to_db,
+    nli_coefficient,
+    optimum_launch_w,
+    span_count,
+    span_fiber,
+)
 
 __all__ = [
     "PathPhysics",
     "evaluate_path",
+    "crosstalk_applies",
+    "fiber_crosstalk_per_km_db",
     "splices_in",
     "mimo_group",
     "mimo_taps_for_spread",
@@ -69,6 +83,19 @@ class PathPhysics:
     mimo_size : int
         Dimension D of each D x D MIMO equalizer (2 polarizations x cores of a coupled group on
         the path); 0 when the path needs no MIMO.
+    spans : int
+        Amplifier spans along the path.
+    osnr_db : float
+        OSNR from amplifier noise alone, 0.1 nm reference bandwidth.
+    gsnr_db : float
+        Generalized SNR in 0.1 nm: amplifier noise, nonlinear interference and crosstalk.
+    margin_db : float
+        ``gsnr_db`` minus the required OSNR of the class reported (the chosen one, or the one
+        closest to closing the path when none does).
+    transceiver_class : str or None
+        The cheapest class that closes the path; None when none does.
+    lane_gbps : float or None
+        Lane rate of that class; None when none closes the path.
     """
 
     length_km: float
@@ -80,6 +107,12 @@ class PathPhysics:
     feasible: bool
     reason: str
     mimo_size: int = 0
+    spans: int = 0
+    osnr_db: float = math.nan
+    gsnr_db: float = math.nan
+    margin_db: float = math.nan
+    transceiver_class: str | None = None
+    lane_gbps: float | None = None
 
 
 def splices_in(length_km: float, spacing_km: float) -> int:
@@ -103,21 +136,159 @@ def mimo_group(fibers: Sequence[FiberType]) -> int:
     return group
 
 
-def mimo_taps_for_spread(spread_ps: float, transceiver: TransceiverSpec) -> int:
+def mimo_taps_for_spread(spread_ps: float, transceiver: TransceiverSpec, symbol_rate_gbaud: float | None = None) -> int:
     """Equalizer taps for an RMS delay spread: ``ceil(spread Rs sps margin) + base``.
 
     ``spread_ps * symbol_rate_gbaud * 1e-3`` is the spread in symbols; times samples per symbol
     in samples; ``tap_margin`` widens the RMS figure to the impulse-response width; the base
-    taps cover residual dispersion and filtering that exist without any modal spread.
+    taps cover residual dispersion and filtering that exist without any modal spread.  The
+    symbol rate is the transceiver's unless a class's is given.
     """
-    symbols = spread_ps * 1e-12 * transceiver.symbol_rate_gbaud * 1e9
+    rate = transceiver.symbol_rate_gbaud if symbol_rate_gbaud is None else symbol_rate_gbaud
+    symbols = spread_ps * 1e-12 * rate * 1e9
     window = symbols * transceiver.samples_per_symbol * transceiver.tap_margin
     # The tolerance keeps an exact integer window (e.g. 8.000000001) from gaining a tap.
     return math.ceil(window - 1e-9) + transceiver.mimo_base_taps
 
 
+def crosstalk_applies(fiber: FiberType) -> bool:
+    """Whether a signal in ``fiber`` has neighbours whose leakage is noise: a weakly coupled fiber
+    with more than one core, or a randomly coupled one with more than one coupled group (leakage
+    inside a group is undone by MIMO)."""
+    if fiber.coupling == "weak":
+        return fiber.cores > 1
+    return fiber.cores > fiber.coupled_group
+
+
+def fiber_crosstalk_per_km_db(fiber: FiberType) -> float:
+    """Crosstalk after 1 km between cores (weak) or coupled groups (random), default if unstated."""
+    if fiber.coupling == "weak":
+        xt = fiber.crosstalk_db_per_km
+        return defaults.CROSSTALK_WEAK_DB_PER_KM if xt is None else xt
+    xt = fiber.group_crosstalk_db_per_km
+    return defaults.GROUP_CROSSTALK_DB_PER_KM if xt is None else xt
+
+
+@dataclass(frozen=True)
+class _Span:
+    """``count`` identical spans of one cable: the fiber, the span length and the loss in front of
+    the amplifier that ends each span."""
+
+    fiber: SpanFiber
+    span_km: float
+    loss_db: float
+    count: int
+    channels: int
+
+
+@dataclass(frozen=True)
+class _Booster:
+    """The amplifier where a signal leaves a site: the loss in front of it, and the index of the
+    span group whose launch power the signal had before that loss (the previous cable's spans,
+    or the first cable's at the transmitter)."""
+
+    loss_db: float
+    reference: int
+
+
+@dataclass(frozen=True)
+class _Line:
+    """A path's amplified line, independent of the transceiver class."""
+
+    spans: tuple[_Span, ...]
+    boosters: tuple[_Booster, ...]
+    crosstalk: float  # linear, summed over fiber and fan-in/fan-out
+    crosstalk_applies: bool
+    loss_db: float  # every passive loss from transmitter to receiver
+    slot_ghz: float  # narrowest channel slot along the path
+
+
+def _line_of_path(hops: Sequence[tuple[Cable, FiberType]], t: TransceiverSpec, line: LineSpec, switching: str) -> _Line:
+    """Spans, boosters and crosstalk of a path (docs/physics.md, "The amplified line")."""
+    per_core_amps = line.amplifier == "per-core"
+    # Cores leave the fiber at an intermediate site when they are switched one by one, or when
+    # every core has its own amplifier; at the path's ends they always do.
+    separated_at_sites = per_core_amps or switching in ("independent", "fractional-joint")
+    if switching == "fiber":
+        express = line.fiber_xc_db
+        add = line.fiber_xc_db + line.wss_pass_db  # the fiber is switched to a channel mux
+    else:
+        express = defaults.WSS_PASSES_EXPRESS * line.wss_pass_db
+        add = line.wss_pass_db
+    drop = add
+    spans: list[_Span] = []
+    boosters: list[_Booster] = []
+    crosstalk = 0.0
+    applies = False
+    passive = add + drop + express * max(0, len(hops) - 1)
+    previous_fifo_out = 0.0
+    for k, (cable, fiber) in enumerate(hops):
+        length = cable.length_km
+        cable_loss = fiber.attenuation_db_per_km * length + t.connector_loss_db
+        cable_loss += splices_in(length, t.splice_spacing_km) * t.splice_loss_db
+        n = span_count(length, line.span_km)
+        fifo = line.fifo_loss_db if fiber.cores > 1 else 0.0
+        first, last = k == 0, k == len(hops) - 1
+        fifo_in = fifo if (first or separated_at_sites) else 0.0  # fan-in where the cable starts
+        fifo_out = fifo if (last or separated_at_sites) else 0.0  # fan-out where it ends
+        if per_core_amps:
+            # A fan-out before and a fan-in after every amplifier: the fan-out's loss is in front
+            # of the amplifier (it costs OSNR), the fan-in's after it (made up by its gain).
+            fifos = 2 * n if fiber.cores > 1 else 0
+            span_loss = cable_loss / n + fifo
+            booster_loss = add if first else express
+        else:
+            fifos = (fifo_in > 0) + (fifo_out > 0)
+            span_loss = cable_loss / n
+            booster_loss = (add if first else express + previous_fifo_out) + fifo_in
+        boosters.append(_Booster(booster_loss, reference=max(0, k - 1)))
+        spans.append(_Span(span_fiber(fiber), length / n, span_loss, n, fiber.channels))
+        passive += cable_loss + fifos * line.fifo_loss_db
+        previous_fifo_out = fifo_out
+        if crosstalk_applies(fiber):
+            applies = True
+            crosstalk += fifos * db_to_linear(line.fifo_crosstalk_db)
+            crosstalk += db_to_linear(fiber_crosstalk_per_km_db(fiber) + 10.0 * math.log10(length))
+    slot = min((line.channel_slot_ghz(f.channels) for _, f in hops), default=0.0)
+    return _Line(tuple(spans), tuple(boosters), crosstalk, applies, passive, slot)
+
+
+@dataclass(frozen=True)
+class _Budget:
+    """OSNR and GSNR of a path for one class, in dB over 0.1 nm."""
+
+    osnr_db: float
+    gsnr_db: float
+
+
+def _budget(path_line: _Line, line: LineSpec, cls: TransceiverClass) -> _Budget:
+    """Noise of ``path_line`` for a class: ASE of every amplifier, NLI of every span, crosstalk."""
+    rate = cls.symbol_rate_gbaud
+    launches = []
+    inv_ase = inv_nli = 0.0
+    for span in path_line.spans:
+        ase = amplifier_ase_w(span.loss_db, line.amplifier_nf_db)
+        spacing = line.channel_slot_ghz(span.channels)
+        eta = nli_coefficient(span.fiber, span.span_km, rate, spacing, span.channels)
+        power = optimum_launch_w(ase, eta) if line.launch_dbm is None else db_to_linear(line.launch_dbm) * 1e-3
+        launches.append(power)
+        inv_ase += span.count * ase / power
+        inv_nli += span.count * eta * power * power
+    for booster in path_line.boosters:
+        if booster.loss_db > 0:  # with no loss to make up there is no booster
+            inv_ase += amplifier_ase_w(booster.loss_db, line.amplifier_nf_db) / launches[booster.reference]
+    inv_xt = path_line.crosstalk * defaults.OSNR_REFERENCE_GHZ / rate
+    return _Budget(linear_to_db(1.0 / inv_ase), linear_to_db(1.0 / (inv_ase + inv_nli + inv_xt)))
+
+
 def evaluate_path(
-    hops: Sequence[tuple[Cable, FiberType]], transceiver: TransceiverSpec, cores_per_unit: int
+    hops: Sequence[tuple[Cable, FiberType]],
+    transceiver: TransceiverSpec,
+    cores_per_unit: int,
+    *,
+    line: LineSpec | None = None,
+    classes: Sequence[TransceiverClass] | None = None,
+    switching: str = "independent",
 ) -> PathPhysics:
     """Evaluate a path given as (cable, fiber type) per hop, for units of ``cores_per_unit`` cores.
 
@@ -126,43 +297,52 @@ def evaluate_path(
     hops : sequence of (Cable, FiberType)
         The cables in path order with their fiber types.
     transceiver : TransceiverSpec
-        Limits, DSP figures and passive losses.
+        DSP figures, MDL limit and the passive losses of cables (connectors, splices).
     cores_per_unit : int
         Cores one switching unit (one transceiver module) spans; MIMO is needed only when the
         unit spans a randomly coupled group.
+    line : LineSpec, optional
+        The amplified line and the parts between fiber and switch (default: ``LineSpec()``).
+    classes : sequence of TransceiverClass, optional
+        Classes to try, in order (cheapest first); default: ``transceiver`` as the only class
+        (:func:`sdmnet.optics.classes.legacy_class`).
+    switching : str
+        The architecture's switching, which decides switch losses and where cores are fanned
+        out (docs/physics.md).
 
     Returns
     -------
     PathPhysics
-        Figures of the path and the verdict; ``reason`` names every limit broken.
+        Figures of the path, the first class that closes it (or none) and the verdict;
+        ``reason`` names every limit broken.
 
     Notes
     -----
-    - Loss: ``sum(att_i L_i + connector + splices_i * splice) + switch * (hops - 1)``: one
-      switch pass at each intermediate site; the end sites' add/drop is in the budget.
+    - Line: every cable is cut into equal spans with an amplifier after each; a booster at
+      every site the signal leaves makes up the add or express loss.  OSNR counts the ASE of
+      every amplifier; GSNR adds the NLI of every span (closed-form GN model) and crosstalk,
+      ``1/GSNR = 1/OSNR + 1/SNR_NLI + 1/SNR_XT`` on the 0.1 nm reference bandwidth.
+    - A class closes the path when ``GSNR - required_osnr_db >= line.margin_db``, the path is
+      within its ``reach_km`` (if any), its symbol rate fits the channel slot and the MIMO
+      equalizer at its symbol rate fits the DSP.  The figures reported are the chosen class's,
+      or, when none closes the path, those of the class closest to closing it.
     - Group-delay spread: random cables ``sqrt(sum coef_i^2 L_i)`` (variances add); weakly
-      coupled cables with a ``dgd_ps_per_km`` add ``coef_i L_i`` linearly.  A path with both
-      adds the two parts linearly: the deterministic skew shifts the random impulse response
-      as a whole, and a sum of the two widths bounds the total width (worst case).
-    - A fiber type without its coupling figure uses the default of :mod:`sdmnet.optics.defaults`
-      (random: GD spread and MDL coefficients; weak: crosstalk per km); a weak fiber without
-      ``dgd_ps_per_km`` contributes no delay.
+      coupled cables with a ``dgd_ps_per_km`` add ``coef_i L_i`` linearly.
+    - ``power_budget_db`` and ``crosstalk_limit_db`` of the transceiver are not limits any more:
+      loss is made up by amplifiers and crosstalk is noise in the GSNR.
     """
     if cores_per_unit < 1:
         raise ValueError(f"cores_per_unit must be >= 1, got {cores_per_unit}")
     t = transceiver
+    line = LineSpec() if line is None else line
+    tried = tuple(classes) if classes else (legacy_class(t),)
     length = 0.0
-    loss = 0.0
     random_variance = 0.0  # ps^2
     deterministic_ps = 0.0
     mdl_variance = 0.0  # dB^2
-    xt_power = 0.0  # linear, summed over weak cables
-    any_weak = False
     for cable, fiber in hops:
         L = cable.length_km
         length += L
-        loss += fiber.attenuation_db_per_km * L + t.connector_loss_db
-        loss += splices_in(L, t.splice_spacing_km) * t.splice_loss_db
         if fiber.coupling == "random":
             gd = fiber.gd_spread_ps_per_sqrt_km
             gd = defaults.GD_SPREAD_RANDOM_PS_PER_SQRT_KM if gd is None else gd
@@ -170,44 +350,46 @@ def evaluate_path(
             mdl = fiber.mdl_db_per_sqrt_km
             mdl = defaults.MDL_RANDOM_DB_PER_SQRT_KM if mdl is None else mdl
             mdl_variance += mdl * mdl * L
-        else:
-            if fiber.dgd_ps_per_km is not None:
-                deterministic_ps += fiber.dgd_ps_per_km * L
-            xt = fiber.crosstalk_db_per_km
-            xt = defaults.CROSSTALK_WEAK_DB_PER_KM if xt is None else xt
-            if L > 0:
-                any_weak = True
-                xt_power += 10.0 ** ((xt + 10.0 * math.log10(L)) / 10.0)
-    loss += t.switch_insertion_loss_db * max(0, len(hops) - 1)
+        elif fiber.dgd_ps_per_km is not None:
+            deterministic_ps += fiber.dgd_ps_per_km * L
     spread = math.sqrt(random_variance) + deterministic_ps
     mdl_db = math.sqrt(mdl_variance)
-    # NaN, not -inf: crosstalk is not a figure of randomly coupled fiber (MIMO undoes the mixing).
-    crosstalk = 10.0 * math.log10(xt_power) if any_weak else math.nan
+    path_line = _line_of_path(hops, t, line, switching)
+    # NaN, not -inf: crosstalk is not a figure of a path whose signals have no neighbours.
+    crosstalk = linear_to_db(path_line.crosstalk) if path_line.crosstalk_applies else math.nan
 
     group = mimo_group([f for _, f in hops])
     needs_mimo = group > 1
-    taps = mimo_taps_for_spread(spread, t) if needs_mimo else 0
     mimo_size = defaults.POLARIZATIONS * group if needs_mimo else 0
 
     reasons = []
-    if length > t.reach_km:
-        reasons.append(f"length {length:.1f} km exceeds reach {t.reach_km:g} km")
-    if loss > t.power_budget_db:
-        reasons.append(f"loss {loss:.1f} dB exceeds power budget {t.power_budget_db:g} dB")
-    if any_weak and crosstalk > t.crosstalk_limit_db:
-        reasons.append(f"crosstalk {crosstalk:.1f} dB exceeds limit {t.crosstalk_limit_db:g} dB")
     if needs_mimo and group > cores_per_unit:
         reasons.append(
             f"cores mix in groups of {group} along the path but a unit spans {cores_per_unit} "
             f"(MIMO cannot separate them)"
         )
-    if taps > t.max_mimo_taps:
-        reasons.append(f"MIMO taps {taps} exceed DSP limit {t.max_mimo_taps}")
     if mdl_db > t.mdl_limit_db:
         reasons.append(f"MDL {mdl_db:.1f} dB exceeds limit {t.mdl_limit_db:g} dB")
+
+    chosen = closest = None
+    shortfalls = []
+    for cls in tried:
+        budget = _budget(path_line, line, cls)
+        taps = mimo_taps_for_spread(spread, t, cls.symbol_rate_gbaud) if needs_mimo else 0
+        trial = (cls, budget, taps)
+        if closest is None or budget.gsnr_db - cls.required_osnr_db > closest[1].gsnr_db - closest[0].required_osnr_db:
+            closest = trial
+        short = _class_shortfalls(cls, budget, taps, length, path_line.slot_ghz, line, t)
+        if not short:
+            chosen = trial
+            break
+        shortfalls.append(f"{cls.name}: " + ", ".join(short))
+    if chosen is None:
+        reasons.append("no transceiver class closes the path (" + "; ".join(shortfalls) + ")")
+    cls, budget, taps = chosen or closest
     return PathPhysics(
         length_km=length,
-        loss_db=loss,
+        loss_db=path_line.loss_db,
         gd_spread_ps=spread,
         mimo_taps=taps,
         crosstalk_db=crosstalk,
@@ -215,7 +397,38 @@ def evaluate_path(
         feasible=not reasons,
         reason="; ".join(reasons),
         mimo_size=mimo_size,
+        spans=sum(span.count for span in path_line.spans),
+        osnr_db=budget.osnr_db,
+        gsnr_db=budget.gsnr_db,
+        margin_db=budget.gsnr_db - cls.required_osnr_db,
+        transceiver_class=cls.name if chosen is not None else None,
+        lane_gbps=cls.lane_gbps if chosen is not None else None,
     )
+
+
+def _class_shortfalls(
+    cls: TransceiverClass,
+    budget: _Budget,
+    taps: int,
+    length: float,
+    slot_ghz: float,
+    line: LineSpec,
+    t: TransceiverSpec,
+) -> list[str]:
+    """What keeps ``cls`` from closing a path (empty when it closes it)."""
+    short = []
+    if cls.symbol_rate_gbaud > slot_ghz:
+        short.append(f"{cls.symbol_rate_gbaud:g} GBd does not fit the {slot_ghz:g} GHz channel slot")
+    if cls.reach_km is not None and length > cls.reach_km:
+        short.append(f"length {length:.1f} km exceeds reach {cls.reach_km:g} km")
+    needed = cls.required_osnr_db + line.margin_db
+    if budget.gsnr_db < needed:
+        short.append(
+            f"GSNR {budget.gsnr_db:.1f} dB below {cls.required_osnr_db:g} dB required + {line.margin_db:g} dB margin"
+        )
+    if taps > t.max_mimo_taps:
+        short.append(f"MIMO taps {taps} exceed DSP limit {t.max_mimo_taps}")
+    return short
 
 
 def mimo_cmul_per_symbol(mimo_size: int, taps: int, samples_per_symbol: float, domain: Domain) -> float:

@@ -27,7 +27,7 @@ import time
 from collections import Counter, defaultdict
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, field, replace
 from itertools import chain, islice
 
 import numpy as np
@@ -73,7 +73,8 @@ class EngineSetup:
     route_units : tuple of tuple of tuple of int
         Per pair and route, units needed by each size class.
     route_unit_gbps : tuple of tuple
-        Per pair and route: capacity of one unit (the unit is uniform along a route).
+        Per pair and route: capacity of one unit (the unit is uniform along a route; its
+        capacity follows the lane rate of the route's transceiver class).
     route_lanes_per_module : tuple of tuple
         Per pair and route: lanes of one transceiver module, the cores the route's randomly
         coupled fiber mixes together (1 on weakly coupled fiber: single-lane modules;
@@ -85,7 +86,8 @@ class EngineSetup:
     whole_fiber : bool
         Fiber switching (units are fibers; modules are counted per demand).
     lane_gbps : float
-        Lane rate (a demand of s Gb/s fills ceil(s / lane) lanes).
+        Lane rate of ``[transceiver]`` (routes found without a class, and grooming of shared
+        units).
     mean_holding : float
         Mean holding time.
     provisioned_fibers : bool
@@ -94,6 +96,11 @@ class EngineSetup:
         (:mod:`sdmnet.sim.provisioning`).  False lights a fiber for the first demand that needs
         it and frees it when the last demand in it leaves (which locks in at a few Erlang
         per pair: kept for checks of the steady-state test).
+    route_lane_gbps : tuple of tuple of float
+        Per pair and route: lane rate of its transceiver class (a demand of s Gb/s on the route
+        fills ceil(s / lane) lanes).
+    route_classes : tuple of tuple of str
+        Per pair and route: name of its transceiver class ("" for routes found without one).
     """
 
     architecture: Architecture
@@ -115,6 +122,8 @@ class EngineSetup:
     lane_gbps: float
     mean_holding: float
     provisioned_fibers: bool = False
+    route_lane_gbps: tuple[tuple[float, ...], ...] = ()
+    route_classes: tuple[tuple[str, ...], ...] = ()
 
     @property
     def unrouted_pairs(self) -> tuple[tuple[str, str], ...]:
@@ -211,19 +220,26 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
     pairs = [p for p in datacenter_pairs(topo) if weights.get(p, 0.0) > 0]
     site_index = {s.id: i for i, s in enumerate(topo.sites)}
     sizes, probs = size_classes(scenario.traffic)
-    routes, route_units, route_gbps, route_lanes = [], [], [], []
+    routes, route_units, route_gbps, route_lanes, route_lane_gbps, route_classes = [], [], [], [], [], []
     for p in pairs:
-        rs = [r.cables for r in found.get(p, [])]
-        routes.append(tuple(rs))
-        units, gbps, lanes = [], [], []
-        for r in rs:
-            geo = geometries[r[0]]
+        found_routes = found.get(p, [])
+        routes.append(tuple(r.cables for r in found_routes))
+        units, gbps, lanes, lane_rates, names = [], [], [], [], []
+        for r in found_routes:
+            # A classed route's unit carries its class's lane rate (docs/physics.md).
+            route_lane = getattr(r, "lane_gbps", lane)
+            geo = geometries[r.cables[0]]
+            geo = replace(geo, unit_gbps=geo.unit_gbps * route_lane / lane)
             units.append(tuple(units_needed(float(s), geo) for s in sizes))
             gbps.append(geo.unit_gbps)
             lanes.append(mimo_group([topo.fiber_types[topo.cables[h].fiber_type] for h in r]))
+            lane_rates.append(route_lane)
+            names.append(getattr(r, "transceiver_class", ""))
         route_units.append(tuple(units))
         route_gbps.append(tuple(gbps))
         route_lanes.append(tuple(lanes))
+        route_lane_gbps.append(tuple(lane_rates))
+        route_classes.append(tuple(names))
     share = np.array([weights[p] for p in pairs])
     return EngineSetup(
         architecture=arch,
@@ -245,6 +261,8 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
         lane_gbps=lane,
         mean_holding=scenario.traffic.mean_holding,
         provisioned_fibers=bool(geometries and geometries[0].whole_fiber and arch.share),
+        route_lane_gbps=tuple(route_lane_gbps),
+        route_classes=tuple(route_classes),
     )
 
 
@@ -252,9 +270,12 @@ def _fiber_lanes(setup: EngineSetup) -> tuple[list[list[int]], list[list[list[in
     """Per pair and route: lanes of one fiber, and lanes a demand of each size fills (whole
     MIMO modules on randomly coupled fiber: :func:`modules_per_end`)."""
     per_fiber, per_demand = [], []
-    for gbps_row, module_row in zip(setup.route_unit_gbps, setup.route_lanes_per_module):
-        per_fiber.append([round(g / setup.lane_gbps) for g in gbps_row])
-        per_demand.append([[modules_per_end(s, setup.lane_gbps, c) * c for s in setup.sizes_gbps] for c in module_row])
+    rows = zip(setup.route_unit_gbps, setup.route_lanes_per_module, setup.route_lane_gbps)
+    for gbps_row, module_row, lane_row in rows:
+        per_fiber.append([round(g / lane) for g, lane in zip(gbps_row, lane_row)])
+        per_demand.append(
+            [[modules_per_end(s, lane, c) * c for s in setup.sizes_gbps] for c, lane in zip(module_row, lane_row)]
+        )
     return per_fiber, per_demand
 
 
@@ -503,7 +524,7 @@ def _route_table(
             c = setup.route_lanes_per_module[p][r]
             route_kinds = []
             for size, n in zip(setup.sizes_gbps, units):
-                per_end = modules_per_end(size, setup.lane_gbps, c)
+                per_end = modules_per_end(size, setup.route_lane_gbps[p][r], c)
                 kind = (len(kinds), 2 * per_end, 2 * per_end * c, a, b, coding.code(a, per_end, c),
                         coding.code(b, per_end, c))
                 kinds.append((tuple(cables), n, kind))

@@ -31,7 +31,6 @@ sizes_gbps = {{ "400" = 0.5, "1600" = 0.5 }}
 
 [transceiver]
 lane_gbps = 400.0
-power_budget_db = 40.0
 
 [run]
 requests = {requests}
@@ -62,6 +61,20 @@ def test_check_prints_what_a_scenario_holds(tmp_path, capsys):
     assert main(["check", str(_scenario(tmp_path))]) == 0
     out = capsys.readouterr().out
     assert "core-wise" in out and "joint-rc4" in out and "dc_alpha" in out
+
+
+def test_check_warns_of_weak_cores_beyond_a_standard_cladding(tmp_path, capsys):
+    # A 7-core weakly coupled fiber with no cladding stated: more cores than a standard 125 um
+    # cladding fits (about 4; common practice, no source): a warning, not an error.
+    topo = tmp_path / "t.toml"
+    text = DEMO_TOPOLOGY.read_text().replace("cladding_um = 150.0\n", "", 1)
+    topo.write_text(text)
+    assert main(["check", str(topo)]) == 0
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1
+    assert err[0].startswith(f"warning: {topo}: fiber_types.mcf7-weak: 7 weakly coupled cores with no cladding_um")
+    assert main(["check", str(DEMO_TOPOLOGY)]) == 0  # the bundled demo states its large cladding
+    assert capsys.readouterr().err == ""
 
 
 def test_bad_input_gives_one_line_and_status_2(tmp_path):

@@ -365,3 +365,23 @@ def test_mean_lanes_in_use_follow_littles_law_on_a_network_with_mixed_sizes(arch
     assert iv.low <= 0.0 <= iv.high, iv
     mean_lanes = sum(r.lanes_mean for r in records) / len(records)
     assert abs(iv.mean) < 0.02 * mean_lanes
+
+
+def test_route_unit_capacity_follows_its_transceiver_class():
+    # A route whose class carries 200 Gb/s lanes has units of 200 Gb/s: a 400 Gb/s demand needs
+    # two of them, where the scenario's own 100 Gb/s lane would need four (docs/physics.md).
+    from sdmnet.optics.pathtable import ClassedRoute
+
+    fiber = fiber_type(cores=1, channels=8)
+    sc = scenario(single_cable(fiber), [Architecture("ind", "independent")], sizes=((400.0, 1.0),), lane_gbps=100.0)
+
+    def classed(scen, arch):
+        return {p: [ClassedRoute(r.sites, r.cables, r.length_km, "fast", 200.0) for r in rs]
+                for p, rs in shortest_routes(scen, arch).items()}  # fmt: skip
+
+    setup = prepare(sc, sc.architectures[0], classed)
+    assert setup.route_unit_gbps == ((200.0,),)
+    assert setup.route_units == (((2,),),)
+    assert setup.route_lane_gbps == ((200.0,),) and setup.route_classes == (("fast",),)
+    plain = prepare(sc, sc.architectures[0], shortest_routes)
+    assert plain.route_units == (((4,),),) and plain.route_classes == (("",),)

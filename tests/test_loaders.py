@@ -492,6 +492,44 @@ BAD_SCENARIOS = [
         scenario_with("replications = 2", "replications = 0"),
         "run.replications: must be >= 1, got 0",
     ),
+    Bad(
+        "line-unknown-key",
+        scenario_with("[run]", "[line]\nspan_lenght = 80\n\n[run]"),
+        "line: unknown key 'span_lenght' (known: span_km, amplifier_nf_db, launch_dbm, amplifier, margin_db, "
+        "fifo_loss_db, fifo_crosstalk_db, wss_pass_db, fiber_xc_db, band_ghz)",
+    ),
+    Bad("line-zero-span", scenario_with("[run]", "[line]\nspan_km = 0\n\n[run]"), "line.span_km: must be > 0, got 0"),
+    Bad(
+        "line-amplifier-kind",
+        scenario_with("[run]", '[line]\namplifier = "raman"\n\n[run]'),
+        "line.amplifier: must be one of 'per-core', 'multicore', got 'raman'",
+    ),
+    Bad(
+        "line-band-too-narrow",
+        scenario_with("[run]", "[line]\nband_ghz = 50\n\n[run]"),
+        "line.band_ghz: fiber type 'weak4' has 8 channels per core, "
+        "more than the 50 GHz band holds on the 12.5 GHz grid",
+    ),
+    Bad(
+        "class-missing-osnr",
+        scenario_with("[run]", '[[transceivers]]\nname = "a"\nlane_gbps = 100\nsymbol_rate_gbaud = 32\n\n[run]'),
+        "transceivers[0]: missing required key 'required_osnr_db'",
+    ),
+    Bad(
+        "class-symbol-rate-too-wide",
+        scenario_with(
+            "[run]",
+            '[[transceivers]]\nname = "a"\nlane_gbps = 800\nsymbol_rate_gbaud = 700\nrequired_osnr_db = 20\n\n[run]',
+        ),
+        "transceivers[0].symbol_rate_gbaud: 700 GBd does not fit the 600 GHz channel slot of fiber type 'weak4' "
+        "(4800 GHz band / 8 channels)",
+    ),
+    Bad(
+        "legacy-symbol-rate-too-wide",
+        scenario_with("lane_gbps = 100", "lane_gbps = 100\nsymbol_rate_gbaud = 650"),
+        "transceiver.symbol_rate_gbaud: 650 GBd does not fit the 600 GHz channel slot of fiber type 'weak4' "
+        "(4800 GHz band / 8 channels)",
+    ),
     Bad("zero-requests", scenario_with("requests = 1000", "requests = 0"), "run.requests: must be >= 1, got 0"),
     Bad("negative-warmup", scenario_with("warmup = 100", "warmup = -1"), "run.warmup: must be >= 0, got -1"),
     Bad("zero-k-paths", scenario_with("k_paths = 2", "k_paths = 0"), "run.k_paths: must be >= 1, got 0"),

@@ -5,6 +5,7 @@ from __future__ import annotations
 import io
 import math
 import time
+from dataclasses import replace
 
 import pandas as pd
 import pytest
@@ -18,6 +19,7 @@ from sdmnet.inputs.model import (
     Site,
     Topology,
     TrafficSpec,
+    TransceiverClass,
     TransceiverSpec,
 )
 from sdmnet.network.routing import datacenter_pairs
@@ -55,12 +57,13 @@ def triangle(fiber_direct: str = "weak7", fiber_via: str = "weak7") -> Scenario:
 
 
 def test_columns_in_contract_order():
-    # docs/model.md, section 5: paths.csv columns (architecture, hops and mdl_db added).
+    # docs/model.md, section 5: paths.csv columns (architecture, hops, mdl_db and the line figures added).
     table = path_table(triangle())
     assert list(table.columns) == list(PATH_COLUMNS)
     assert list(PATH_COLUMNS) == [
         "architecture", "a", "b", "rank", "path", "hops", "length_km", "loss_db",
-        "gd_spread_ps", "mimo_taps", "crosstalk_db", "mdl_db", "feasible", "reason",
+        "gd_spread_ps", "mimo_taps", "crosstalk_db", "mdl_db", "spans", "osnr_db", "gsnr_db",
+        "margin_db", "transceiver_class", "feasible", "reason",
     ]  # fmt: skip
 
 
@@ -84,18 +87,39 @@ def test_path_beyond_reach_absent_from_feasible_routes():
     assert [r.label for r in routes[("D1", "D2")]] == ["D1-H-D2"]
 
 
-def test_path_beyond_power_budget_absent_from_feasible_routes():
-    # Loss via H, by hand: 0.2 * 90 = 18 dB + 2 connectors x 1 dB + splices (40 km: 7,
-    # 50 km: 9) x 0.1 = 1.6 dB + one switch pass 6 dB = 27.6 dB > 25 dB budget.
-    # Direct: 0.2 * 150 + 1 + 29 * 0.1 = 33.9 dB, also over.  No feasible route.
-    trx = TransceiverSpec(reach_km=1000.0, power_budget_db=25.0, connector_loss_db=1.0, crosstalk_limit_db=0.0)
+def test_path_short_of_gsnr_absent_from_feasible_routes():
+    # A class needing more OSNR than either path offers (plus the margin) closes neither: the
+    # pair has no feasible route, and the table names the class and its shortfall.
+    trx = TransceiverSpec(reach_km=1000.0, required_osnr_db=45.0)
     base = triangle()
     scen = scenario(base.topology.sites, base.topology.cables, base.topology.fiber_types, base.architectures, trx)
     table = path_table(scen)
-    assert list(table["loss_db"]) == pytest.approx([27.6, 33.9])
     assert not table["feasible"].any()
-    assert all("power budget" in r for r in table["reason"])
+    assert set(table["transceiver_class"]) == {"none"}
+    assert all("GSNR" in r and "45 dB required + 2 dB margin" in r for r in table["reason"])
+    assert (table["margin_db"] < 2.0).all()
     assert feasible_routes(scen, scen.architectures[0]) == {("D1", "D2"): []}
+
+
+def test_cheapest_class_per_gbps_that_closes_the_path_is_chosen():
+    # The direct 150 km cable: a cheap short-reach class (100 km) cannot take it, an expensive
+    # one can; via the hub (90 km) the cheap one can.  Cost per Gb/s decides the order: the
+    # 400G class at 1.5 (0.00375 per Gb/s) beats the 200G class at 1.0 (0.005 per Gb/s).
+    base = triangle()
+    classes = (
+        TransceiverClass("short-200", 200.0, 32.0, required_osnr_db=10.0, reach_km=100.0, cost=1.0),
+        TransceiverClass("short-400", 400.0, 60.0, required_osnr_db=10.0, reach_km=100.0, cost=1.5),
+        TransceiverClass("long-400", 400.0, 60.0, required_osnr_db=10.0, cost=3.0),
+    )
+    scen = replace(base, transceivers=classes)
+    table = path_table(scen).set_index("path")
+    assert table.loc["D1-D2", "transceiver_class"] == "long-400"
+    assert table.loc["D1-H-D2", "transceiver_class"] == "short-400"
+    routes = feasible_routes(scen, scen.architectures[0])[("D1", "D2")]
+    assert [(r.label, r.transceiver_class, r.lane_gbps) for r in routes] == [
+        ("D1-H-D2", "short-400", 400.0),
+        ("D1-D2", "long-400", 400.0),
+    ]
 
 
 def test_path_mixing_unit_sizes_is_infeasible():

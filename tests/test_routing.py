@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import networkx as nx
 from builders import fiber_type
 
@@ -35,3 +37,14 @@ def test_routes_are_the_k_shortest_simple_paths_by_length():
 
 def test_datacenter_pairs_skip_hubs():
     assert datacenter_pairs(_mesh()) == [("A", "D")]
+
+
+def test_no_route_passes_through_a_site_closed_to_transit():
+    # A site with transit = false is only ever an end (issue 14: campuses not built to carry
+    # others' traffic).  With hub C closed, A to D has one route left: A-B-D (E hangs off C).
+    topo = _mesh()
+    closed = replace(topo, sites=tuple(replace(s, transit=s.id != "C") for s in topo.sites))
+    routes = k_shortest_routes(closed, "A", "D", 10)
+    assert [r.label for r in routes] == ["A-B-D"]
+    # As an end a closed site is still reachable.
+    assert k_shortest_routes(closed, "A", "C", 1)[0].label == "A-B-C"

@@ -219,21 +219,15 @@ def test_nsfnet_graphml_is_what_the_script_writes_now(nsfnet: dict[str, Any]) ->
     assert (TOPOLOGIES / "nsfnet.graphml").read_text(encoding="utf-8") == module.graphml_text(nsfnet)
 
 
-def test_nsfnet_scenario_reach_leaves_the_stated_pairs_without_a_path(nsfnet: dict[str, Any]) -> None:
-    scenario, topology = scenario_topology(SCENARIOS / "nsfnet.toml")
+def test_nsfnet_shortest_paths_span_the_long_haul_range(nsfnet: dict[str, Any]) -> None:
+    # The scenario's comment: shortest-path lengths run from 262.5 km to 4426.2 km (recomputed
+    # here from the topology with networkx, independently of sdmnet's routing).
+    _scenario, topology = scenario_topology(SCENARIOS / "nsfnet.toml")
     assert topology == nsfnet
     graph = toml_graph(nsfnet)
     dist = dict(nx.all_pairs_dijkstra_path_length(graph, weight="length_km"))
     shortest = {frozenset((a, b)): dist[a][b] for a, b in itertools.combinations(graph.nodes, 2)}
     assert len(shortest) == 91
-    reach = scenario["transceiver"]["reach_km"]
-    beyond = {pair for pair, length in shortest.items() if length > reach}
-    # The six pairs named in the scenario's comment.
-    named = [
-        ("PaloAlto", "Washington"), ("SanDiego", "Princeton"), ("SanDiego", "Ithaca"),
-        ("Washington", "Seattle"), ("Atlanta", "Seattle"), ("AnnArbor", "Seattle"),
-    ]  # fmt: skip
-    assert beyond == {frozenset(p) for p in named}
     assert min(shortest.values()) == pytest.approx(262.5, abs=0.05)
     assert max(shortest.values()) == pytest.approx(4426.2, abs=0.05)
 

@@ -114,6 +114,17 @@ def plan_frame() -> pd.DataFrame:
     )
 
 
+def paths_frame() -> pd.DataFrame:
+    return pd.DataFrame(
+        [
+            {"architecture": a, "length_km": km, "gsnr_db": 40.0 - km / 20 - shift,
+             "margin_db": 40.0 - km / 20 - shift - need, "transceiver_class": cls, "feasible": cls != "none"}
+            for a, shift in (("fine", 0.0), ("coarse", 1.0))
+            for km, cls, need in ((40.0, "short", 26.0), (120.0, "long", 24.0), (300.0, "none", 24.0))
+        ]
+    )  # fmt: skip
+
+
 DRAWINGS = {
     "blocking": lambda path: figures.blocking_figure(summary_frame(), path),
     "bandwidth": lambda path: figures.blocking_figure(summary_frame(), path, column="bandwidth_blocking"),
@@ -127,6 +138,7 @@ DRAWINGS = {
     "estimate": lambda path: figures.estimate_figure(estimate_frame(), summary_frame(), path),
     "estimate-alone": lambda path: figures.estimate_figure(estimate_frame(), None, path),
     "plan": lambda path: figures.plan_figure(plan_frame(), path),
+    "paths-gsnr": lambda path: figures.gsnr_figure(paths_frame(), path),
 }
 
 

@@ -7,6 +7,7 @@ keeps PNG bytes stable; every figure function takes tables and a path and return
 from .blocking import blocking_figure, estimate_figure
 from .equipment import forecast_figure, plan_figure, resources_figure
 from .look import HATCHES, LOOK, STYLE_CYCLE, UTILISATION_CMAP, bar_style_for, save_figure, style_for
+from .paths import gsnr_figure
 from .topology import topology_figure
 
 __all__ = [
@@ -23,4 +24,5 @@ __all__ = [
     "forecast_figure",
     "estimate_figure",
     "plan_figure",
+    "gsnr_figure",
 ]

@@ -262,6 +262,13 @@ def paths(res: ResultFolder) -> Section | None:
     if candidates is None:
         return None
     data: dict[str, Any] = {"count": len(candidates), "feasible": None, "stranded": [], "refused": None}
+    data["figure"] = None
+    if {"architecture", "length_km", "gsnr_db"} <= set(candidates.columns) and candidates["gsnr_db"].notna().any():
+        data["figure"] = figure(
+            figures.gsnr_figure(candidates, res.path / "paths_gsnr.png"),
+            "Scatter plots of GSNR against path length, one panel per architecture",
+            "GSNR of every candidate path against its length, per architecture; markers by transceiver class.",
+        )
     if "feasible" in candidates.columns:
         feasible = candidates["feasible"].astype(str).str.lower().isin(["true", "1", "yes"])
         data["feasible"] = int(feasible.sum())
@@ -275,7 +282,7 @@ def paths(res: ResultFolder) -> Section | None:
             ]
         if "reason" in candidates.columns and not feasible.all():
             refused = candidates.loc[~feasible]
-            columns = ["architecture", "a", "b", "rank", "path", "length_km", "loss_db", "reason"]
+            columns = ["architecture", "a", "b", "rank", "path", "length_km", "gsnr_db", "reason"]
             data["refused"] = (len(refused), table(refused, columns))
     data["table"] = table(candidates)
     return Section("paths", "Paths", data)

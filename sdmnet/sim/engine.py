@@ -232,7 +232,7 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
             geo = replace(geo, unit_gbps=geo.unit_gbps * route_lane / lane)
             units.append(tuple(units_needed(float(s), geo) for s in sizes))
             gbps.append(geo.unit_gbps)
-            lanes.append(mimo_group([topo.fiber_types[topo.cables[h].fiber_type] for h in r]))
+            lanes.append(mimo_group([topo.fiber_types[topo.cables[h].fiber_type] for h in r.cables]))
             lane_rates.append(route_lane)
             names.append(getattr(r, "transceiver_class", ""))
         route_units.append(tuple(units))

@@ -151,8 +151,9 @@ SYMBOL_RATE_GBAUD = LINE_RATE_GBPS / (POLARIZATIONS * 4)
 # Reach: verified, OIF 400ZR project page, "amplified DWDM applications with distances up to 120 km".
 REACH_KM = 120.0
 # Loss budget: verified, the same vendor datasheet: single-span links with loss below 22 dB
-# ("standard-defined") need only a booster amplifier and no site survey.  Longer or lossier
-# paths need preamplifiers or amplified switching sites; set power_budget_db in the scenario.
+# ("standard-defined") need only a booster amplifier and no site survey.  Kept for old scenarios
+# only: every cable is now an amplified line judged by its GSNR (docs/physics.md), so neither
+# this budget nor CROSSTALK_LIMIT_DB below decides feasibility any more.
 POWER_BUDGET_DB = 22.0
 # Inter-core crosstalk tolerated by DP-16QAM for about 1 dB penalty: from memory (P. J. Winzer
 # et al., "Penalties from in-band crosstalk for advanced optical modulation formats", ECOC 2011).

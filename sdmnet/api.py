@@ -32,8 +32,9 @@ from .output.tables import (
     write_table,
 )
 from .sim.engine import ReplicationRecord, prepare
+from .sim.progress import ProgressBar
 from .sim.stats import PointSummary, summarize_point
-from .sim.sweep import Progress, TaskStore, plan_tasks, run_sweep, scenario_fingerprint
+from .sim.sweep import TaskStore, plan_tasks, run_sweep, scenario_fingerprint
 
 __all__ = [
     "SimulationResult",
@@ -109,7 +110,7 @@ def simulate(
     resume : bool
         Keep finished tasks already in ``out_dir/tasks`` and run only the missing ones.
     progress : bool
-        Report progress on stderr for runs longer than a few seconds.
+        A progress bar on stderr (on a terminal; elsewhere one summary line at the end).
     figures : bool
         Write ``report.html`` and its figures (each drawn once, by :func:`report`).
 
@@ -126,7 +127,7 @@ def simulate(
     setups = {a.name: prepare(scenario, a) for a in scenario.architectures}
     tasks = plan_tasks(scenario)
     store = TaskStore(out / "tasks", scenario_fingerprint(scenario))
-    bar = Progress(len(tasks), "simulate") if progress else None
+    bar = ProgressBar("simulate", "tasks", len(tasks), enabled=progress)
     records = run_sweep(scenario, store, tasks=tasks, jobs=jobs, scheduler=scheduler, resume=resume, progress=bar)
     points, resources = summarize_records(scenario, records)
     modules = {a.name: module_figures(scenario, a) for a in scenario.architectures}

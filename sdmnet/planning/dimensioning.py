@@ -31,12 +31,10 @@ does not remove routes from it.
 from __future__ import annotations
 
 import math
-import sys
 import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import TextIO
 
 import numpy as np
 import pandas as pd
@@ -60,6 +58,7 @@ from ..network.traffic import pair_loads, pair_weights, size_classes
 from ..output.manifest import ensure_out_dir, run_manifest
 from ..output.tables import write_json, write_table
 from ..sim.engine import EngineSetup, prepare
+from ..sim.progress import ProgressBar
 from ..sim.stats import PointSummary, summarize_point
 from ..sim.sweep import plan_tasks, run_sweep
 
@@ -83,7 +82,6 @@ __all__ = [
     "plan_cost_rows",
     "site_rows",
     "candidate_rows",
-    "stderr_log",
     "start_run",
     "finish_run",
     "run_plan",
@@ -890,21 +888,8 @@ class PlanResult:
     wall_time_s: float
 
 
-def stderr_log(prefix: str, stream: TextIO | None = None) -> Callable[[str], None]:
-    """A logger writing ``prefix: line`` to stderr (progress of plan and forecast)."""
-
-    def _log(line: str) -> None:
-        out = stream if stream is not None else sys.stderr
-        out.write(f"{prefix}: {line}\n")
-        out.flush()
-
-    return _log
-
-
-def start_run(
-    scenario: Scenario, out_dir: Path | str, verb: str, progress: bool
-) -> tuple[Path, Callable[[str], None] | None]:
-    """The start shared by ``plan`` and ``forecast``: the output folder and the progress log.
+def start_run(scenario: Scenario, out_dir: Path | str) -> Path:
+    """The start shared by ``plan`` and ``forecast``: the output folder.
 
     Every architecture is checked against every cable first, so an impossible one is refused
     (ConfigurationError) before any simulation; an unwritable folder raises InputError.
@@ -912,7 +897,7 @@ def start_run(
     out = ensure_out_dir(out_dir)
     for arch in scenario.architectures:
         cable_geometries(scenario, arch)
-    return out, (stderr_log(verb) if progress else None)
+    return out
 
 
 def finish_run(scenario: Scenario, out: Path, verb: str, started: float, **options: object) -> float:
@@ -953,7 +938,8 @@ def run_plan(
     jobs : int
         Worker processes for the replications of each candidate.
     progress : bool
-        One line per simulated candidate on stderr.
+        A progress bar of simulated candidates on stderr (on a terminal; elsewhere one summary
+        line at the end).
     cable_cuts : bool
         Also simulate the plan with each cable cut in turn.
 
@@ -965,12 +951,13 @@ def run_plan(
         SIGINT/SIGTERM; finished architectures are on disk.
     """
     started = time.perf_counter()
-    out, log = start_run(scenario, out_dir, "plan", progress)
+    out = start_run(scenario, out_dir)
+    bar = ProgressBar("plan", "candidates", enabled=progress)  # one step per simulated candidate
     plans: list[ArchitecturePlan] = []
     plan_part, totals_part, site_part, cand_part, cost_part, cut_parts = [], [], [], [], [], []
     cuts: pd.DataFrame | None = None
     for arch in scenario.architectures:
-        ap = plan_architecture(scenario, arch, jobs=jobs, log=log)
+        ap = plan_architecture(scenario, arch, jobs=jobs, log=bar.step)
         plans.append(ap)
         plan_part += plan_rows(scenario, ap)
         prices = plan_prices(scenario, arch)
@@ -984,9 +971,10 @@ def run_plan(
         write_table(pd.DataFrame(cand_part), out / "plan_candidates.csv")
         write_table(pd.DataFrame(cost_part), out / "cost.csv")
         if cable_cuts:
-            cut_parts.append(cable_cut_table(scenario, ap, jobs=jobs, log=log))
+            cut_parts.append(cable_cut_table(scenario, ap, jobs=jobs, log=bar.step))
             cuts = pd.concat(cut_parts, ignore_index=True)
             write_table(cuts, out / "cuts.csv")
+    bar.close()
     wall = finish_run(
         scenario, out, "plan", started, jobs=jobs, cable_cuts=cable_cuts,
         dimensioning_load_erlang=dimensioning_load(scenario), per_pair=plan_spec(scenario).per_pair,

@@ -23,6 +23,7 @@ import pandas as pd
 from ..inputs.model import ForecastSpec, Scenario
 from ..output.figures import forecast_figure
 from ..output.tables import write_table
+from ..sim.progress import ProgressBar
 from .dimensioning import (
     DEFAULT_MAX_CANDIDATES,
     ArchitecturePlan,
@@ -110,6 +111,7 @@ def forecast_architecture(
     jobs: int = 1,
     max_candidates: int = DEFAULT_MAX_CANDIDATES,
     log: Callable[[str], None] | None = None,
+    year_done: Callable[[YearPlan], None] | None = None,
 ) -> list[YearPlan]:
     """Plans of one architecture for years 0..F, each year's fibers a floor for the next.
 
@@ -125,6 +127,8 @@ def forecast_architecture(
         Simulation budget per year.
     log : callable, optional
         One line per simulated candidate.
+    year_done : callable, optional
+        Called with each year's plan as soon as it is made.
     """
     spec = forecast_spec(scenario)
     arch = scenario.architectures[arch_index]
@@ -132,6 +136,8 @@ def forecast_architecture(
     years: list[YearPlan] = []
     plan = plan_architecture(scenario, arch, jobs=jobs, max_candidates=max_candidates, log=log)
     years.append(YearPlan(0, 1.0, plan, installed))
+    if year_done is not None:
+        year_done(years[-1])
     for year in range(1, spec.years + 1):
         factor = spec.factor(year)
         sc = year_scenario(scenario, factor)
@@ -140,6 +146,8 @@ def forecast_architecture(
             sc, arch, start=floor, lower=floor, jobs=jobs, max_candidates=max_candidates, log=log
         )
         years.append(YearPlan(year, factor, plan, tuple(floor[k] for k in plan.cables)))
+        if year_done is not None:
+            year_done(years[-1])
     return years
 
 
@@ -233,7 +241,8 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
     jobs : int
         Worker processes for the replications of each candidate.
     progress : bool
-        One line per simulated candidate on stderr.
+        A progress bar of the years planned on stderr (on a terminal; elsewhere one summary
+        line at the end).
 
     Raises
     ------
@@ -243,12 +252,16 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
         SIGINT/SIGTERM; finished architectures are on disk.
     """
     started = time.perf_counter()
-    out, log = start_run(scenario, out_dir, "forecast", progress)
+    out = start_run(scenario, out_dir)
     spec = forecast_spec(scenario)
+    # One step per year planned (every architecture); the latest candidate shows beside the bar.
+    bar = ProgressBar("forecast", "years", len(scenario.architectures) * (spec.years + 1), enabled=progress)
     all_years: list[YearPlan] = []
     rows, totals, cands = [], [], []
     for ai in range(len(scenario.architectures)):
-        years = forecast_architecture(scenario, ai, jobs=jobs, log=log)
+        years = forecast_architecture(
+            scenario, ai, jobs=jobs, log=bar.note, year_done=lambda yp: bar.step(f"year {yp.year} planned")
+        )
         all_years += years
         rows += forecast_rows(years)
         for yp in years:
@@ -259,6 +272,7 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
         write_table(pd.DataFrame(totals), out / "forecast_totals.csv")
         write_table(pd.DataFrame(cands), out / "forecast_candidates.csv")
         (out / "forecast_notes.txt").write_text(forecast_notes(all_years))
+    bar.close()
     totals_frame = pd.DataFrame(totals)
     figures = forecast_figures(totals_frame, out) if len(totals_frame) else []
     notes = forecast_notes(all_years)

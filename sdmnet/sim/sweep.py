@@ -20,15 +20,15 @@ import json
 import os
 import signal
 import sys
-import time
 from collections.abc import Callable, Iterable, Iterator
 from dataclasses import asdict, dataclass
 from pathlib import Path
-from typing import Any, TextIO
+from typing import Any
 
 from ..errors import InputError, RunInterrupted
 from ..inputs.model import Scenario
 from .engine import EngineSetup, ReplicationRecord, prepare, simulate_replication
+from .progress import ProgressBar
 
 __all__ = [
     "Task",
@@ -36,7 +36,6 @@ __all__ = [
     "run_task",
     "scenario_fingerprint",
     "TaskStore",
-    "Progress",
     "run_sweep",
 ]
 
@@ -155,40 +154,6 @@ class TaskStore:
                 path.unlink()
 
 
-class Progress:
-    """Task counter on stderr, silent for runs shorter than ``quiet_for`` seconds."""
-
-    def __init__(
-        self, total: int, label: str, stream: TextIO | None = None, quiet_for: float = 2.0, every: float = 1.0
-    ) -> None:
-        self.total = total
-        self.label = label
-        self.stream = stream if stream is not None else sys.stderr
-        self.quiet_for = quiet_for
-        self.every = every
-        self.done = 0
-        self.started = time.monotonic()
-        self._last = 0.0
-        self._shown = False
-
-    def step(self, n: int = 1) -> None:
-        self.done += n
-        now = time.monotonic()
-        elapsed = now - self.started
-        if elapsed < self.quiet_for or (now - self._last < self.every and self.done < self.total):
-            return
-        self._last = now
-        self._shown = True
-        rate = self.done / elapsed if elapsed > 0 else 0.0
-        eta = (self.total - self.done) / rate if rate > 0 else float("nan")
-        self.stream.write(f"{self.label}: {self.done}/{self.total} tasks, {elapsed:.0f} s elapsed, ~{eta:.0f} s left\n")
-        self.stream.flush()
-
-    def finish(self) -> None:
-        if self._shown and self.done < self.total:
-            self.stream.write(f"{self.label}: stopped at {self.done}/{self.total} tasks\n")
-
-
 _Finished = tuple[Task, ReplicationRecord]
 
 
@@ -252,7 +217,7 @@ def run_sweep(
     jobs: int = 1,
     scheduler: str | None = None,
     resume: bool = False,
-    progress: Progress | None = None,
+    progress: ProgressBar | None = None,
     on_record: Callable[[Task, ReplicationRecord], None] | None = None,
 ) -> dict[str, ReplicationRecord]:
     """Run every task of ``scenario`` (or ``tasks``) and return records by task key.
@@ -271,8 +236,8 @@ def run_sweep(
         Address of a Dask scheduler (``tcp://host:port``); overrides ``jobs``.
     resume : bool
         Reuse finished tasks found in ``store``.
-    progress : Progress, optional
-        Told of each finished task.
+    progress : ProgressBar, optional
+        Told of each finished task (and of those resumed); closed when the sweep ends.
     on_record : callable, optional
         Called with each newly finished task and record.
 
@@ -291,7 +256,7 @@ def run_sweep(
             store.clear()
     todo = [t for t in tasks if t.key not in records]
     if progress is not None:
-        progress.done = len(records)
+        progress.start_at(len(records))
 
     def _terminate(signum: int, frame: object) -> None:
         raise KeyboardInterrupt
@@ -312,11 +277,11 @@ def run_sweep(
             if progress is not None:
                 progress.step()
     except KeyboardInterrupt:
-        if progress is not None:
-            progress.finish()
         raise RunInterrupted(f"interrupted after {len(records)} of {len(tasks)} tasks") from None
     finally:
         results.close()  # stops a worker pool even when the loop body raised
+        if progress is not None:
+            progress.close()
         if old_term is not None:
             signal.signal(signal.SIGTERM, old_term)
     return records

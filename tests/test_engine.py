@@ -78,6 +78,7 @@ def test_fiber_pairs_multiply_servers():
     assert iv.low <= erlang_b(10, 5.0) <= iv.high
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize(
     ("switching", "cores", "lane_sizes"),
     [
@@ -88,21 +89,26 @@ def test_fiber_pairs_multiply_servers():
     ],
 )
 def test_mixed_sizes_block_per_class_as_kaufman_roberts(switching, cores, lane_sizes):
+    # Both cases are 32 units shared by demands of 1 and 3 units (Kaufman, IEEE Trans. Commun.
+    # 29(10), 1981; Roberts, 1981).  The load puts the classes at about 3 % and 10 % blocking,
+    # where 30 replications of 20,000 requests give 99 % intervals within 5 % of the exact
+    # value: an engine 10 % off in either class fails here.
     lane = 100.0
     channels, pairs = (8, 1) if switching == "independent" else (16, 2)
     fiber = fiber_type(cores=cores, channels=channels)
     arch = Architecture(switching, switching)
     sizes = tuple((n * lane, p) for n, p in zip(lane_sizes, (0.7, 0.3)))
-    load = 9.0 if switching == "independent" else 10.0
+    load = 15.0
     sc = scenario(single_cable(fiber, fiber_pairs=pairs), [arch], loads=(load,), sizes=sizes, lane_gbps=lane)
-    records = _simulate(sc, arch, load, replications=10, requests=20_000)
+    records = _simulate(sc, arch, load, replications=30, requests=20_000)
     g = 1 if switching == "independent" else cores
     capacity = pairs * channels * cores // g
     units = [n // g for n in lane_sizes]
     expected = kaufman_roberts(capacity, [load * 0.7, load * 0.3], units)
     for k in range(2):
-        iv = _class_interval(records, k, 0.999)
+        iv = _class_interval(records, k, 0.99)
         assert iv.low <= expected[k] <= iv.high, (k, iv, expected[k])
+        assert iv.high - iv.low <= 0.10 * expected[k], f"class {k}: the interval is too wide to see a 10 % error"
     # The larger class blocks more: a check that the per-class split is meaningful.
     assert expected[1] > 2 * expected[0]
 

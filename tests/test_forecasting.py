@@ -6,7 +6,7 @@ from dataclasses import replace
 
 import pandas as pd
 import pytest
-from builders import fiber_type, scenario, weighted_datacenter_chain
+from builders import fiber_type, scenario, single_cable, weighted_datacenter_chain
 
 from sdmnet.inputs.model import Architecture, ForecastSpec, PlanSpec
 from sdmnet.planning.dimensioning import run_plan
@@ -63,3 +63,50 @@ def test_forecast_writes_notes_and_figures(tmp_path):
     totals = pd.read_csv(tmp_path / "forecast_totals.csv")
     assert list(totals["year"]) == [0, 1, 2]
     assert (totals["switch_ports"].diff().dropna() >= 0).all()
+
+
+# -- one cable against Erlang B ------------------------------------------------------------------
+
+# "Erlang-B capacity table, voice channels needed to serve offered traffic load for 2 %
+# blocking", WirelessU traffic-engineering course (Lucent Technologies), reproduced at
+# garywagoner.tripod.com/traffic/ERLANG.HTML (the rows tests/test_analytic.py also checks):
+# the most Erlang that N servers carry at 2 % blocking, three decimals.
+TABLE_2PCT = {5: 1.657, 11: 5.842, 15: 9.010, 21: 14.036, 25: 17.505}
+CHANNELS = 5  # servers per fiber pair: a single-core fiber of 5 channels, one-lane demands
+
+
+def _erlang_b_recursion(servers: int, load: float) -> float:
+    # B(0) = 1, B(n) = A B(n-1) / (n + A B(n-1)) (Erlang's loss formula; docs/estimate.md).
+    b = 1.0
+    for n in range(1, servers + 1):
+        b = load * b / (n + load * b)
+    return b
+
+
+def test_one_cable_forecast_adds_the_fiber_pairs_erlang_b_asks_for_each_year(tmp_path):
+    # Year loads 1.0, 7.3 and 15.5 Erlang at a 2 % target.  The table fixes the answer: 5
+    # servers carry 1.657 E, so year 0 needs 1 pair; 11 servers carry only 5.842 E (so 10 do
+    # not carry 7.3) and 15 carry 9.010, so year 1 needs 3 pairs; 21 carry 14.036 (20 do not
+    # carry 15.5) and 25 carry 17.505, so year 2 needs 5 pairs.
+    loads = (1.0, 7.3, 15.5)
+    expected_pairs = [1, 3, 5]
+    for pairs, load in zip(expected_pairs, loads):
+        assert TABLE_2PCT[CHANNELS * pairs] >= load
+        smaller = CHANNELS * (pairs - 1)
+        assert smaller == 0 or TABLE_2PCT[smaller + 1] < load
+    # The recursion agrees with the printed rows (three decimals) and, with margin on both sides
+    # of the target (so that simulation noise cannot tip a year), with the answer.
+    for servers, printed in TABLE_2PCT.items():
+        low, high = printed - 0.0015, printed + 0.0015
+        assert _erlang_b_recursion(servers, low) <= 0.02 <= _erlang_b_recursion(servers, high), servers
+    for pairs, load in zip(expected_pairs, loads):
+        assert _erlang_b_recursion(CHANNELS * pairs, load) < 0.02 / 2
+        assert _erlang_b_recursion(CHANNELS * (pairs - 1), load) > 0.02 * 2
+
+    arch = Architecture("ind", "independent")
+    sc = scenario(single_cable(fiber_type(cores=1, channels=CHANNELS)), [arch], loads=(loads[0],),
+                  requests=10_000, warmup=1000, replications=3)
+    factors = tuple(load / loads[0] for load in loads[1:])
+    sc = replace(sc, plan=PlanSpec(0.02), forecast=ForecastSpec(years=len(factors), factors=factors))
+    result = run_forecast(sc, tmp_path, progress=False)
+    assert result.forecast.sort_values("year")["fiber_pairs"].tolist() == expected_pairs

@@ -120,6 +120,7 @@ def test_unwritable_output_folder_is_an_input_error(tmp_path):
     assert proc.stderr.startswith(f"error: {blocker / 'sub'}: --out: cannot write the output folder")
 
 
+@pytest.mark.slow
 def test_simulate_estimate_paths_write_their_files(tmp_path):
     scen = _scenario(tmp_path, requests=1000, replications=2)
     out = tmp_path / "sim"

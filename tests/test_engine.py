@@ -342,7 +342,10 @@ def test_arrival_records_are_sequential_sums_and_offered_counts_tally_the_measur
     [
         (Architecture("ind", "independent"), fiber_type(cores=4, channels=8)),
         (Architecture("joint", "joint"), fiber_type(cores=4, channels=8)),
-        (Architecture("fj2-groomed", "fractional-joint", group=2, share=True), fiber_type(cores=4, channels=8)),
+        pytest.param(  # over 3 s
+            Architecture("fj2-groomed", "fractional-joint", group=2, share=True), fiber_type(cores=4, channels=8),
+            marks=pytest.mark.slow,
+        ),
         (Architecture("joint-rc2", "joint"), fiber_type(name="rc", cores=4, coupling="random", coupled_group=2,
                                                         channels=8)),
     ],

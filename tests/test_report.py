@@ -181,6 +181,7 @@ def reported(simulated: Path, tmp_path_factory: pytest.TempPathFactory) -> Path:
 # --- byte-identical regeneration -----------------------------------------------------------------
 
 
+@pytest.mark.slow
 def test_report_regenerates_byte_identical_in_one_process(reported: Path) -> None:
     first = snapshot(reported)
     assert {"report.html", "estimate.png", "plan.png", "forecast.png"} | FIGURES_OF_A_SIMULATION == set(first)
@@ -188,6 +189,7 @@ def test_report_regenerates_byte_identical_in_one_process(reported: Path) -> Non
     assert snapshot(reported) == first
 
 
+@pytest.mark.slow
 def test_report_regenerates_byte_identical_in_another_process(
     simulated: Path, reported: Path, tmp_path: Path
 ) -> None:

@@ -56,6 +56,7 @@ def test_local_pool_gives_the_inline_summary(tmp_path):
     assert _summary_bytes(sc, tmp_path / "inline", jobs=1) == _summary_bytes(sc, tmp_path / "pool", jobs=2)
 
 
+@pytest.mark.slow
 def test_dask_cluster_gives_the_local_summary(tmp_path):
     distributed = pytest.importorskip("distributed")
     sc = _scenario()

@@ -192,9 +192,9 @@ def plan(
     figures: bool = True,
 ):
     """Fewest fiber pairs per cable meeting the target blocking: writes ``plan.csv``, its
-    totals, run.json (:func:`sdmnet.planning.dimensioning.run_plan`) and, with ``figures``,
+    totals, run.json (:func:`sdmnet.planning.run.run_plan`) and, with ``figures``,
     ``report.html`` and its figures."""
-    from .planning.dimensioning import run_plan
+    from .planning.run import run_plan
 
     result = run_plan(scenario, out_dir, jobs=jobs, progress=progress, cable_cuts=cable_cuts)
     if figures:

@@ -154,7 +154,10 @@ def cmd_plan_or_forecast(args: argparse.Namespace) -> int:
     scenario = _load_scenario(args)
     out = _out(args, args.verb)
     if args.verb == "plan":
-        api.plan(scenario, out, jobs=args.jobs, progress=not args.quiet, cable_cuts=args.cuts)
+        from .planning.run import summary_lines
+
+        result = api.plan(scenario, out, jobs=args.jobs, progress=not args.quiet, cable_cuts=args.cuts)
+        print("\n".join(summary_lines(result.plans)))
     else:
         api.forecast(scenario, out, jobs=args.jobs, progress=not args.quiet)
     print(f"results in {out}/ (report.html)")

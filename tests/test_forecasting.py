@@ -9,8 +9,8 @@ import pytest
 from builders import fiber_type, scenario, single_cable, weighted_datacenter_chain
 
 from sdmnet.inputs.model import Architecture, ForecastSpec, PlanSpec
-from sdmnet.planning.dimensioning import run_plan
 from sdmnet.planning.forecasting import run_forecast, year_scenario
+from sdmnet.planning.run import run_plan
 
 TARGET = 0.01
 

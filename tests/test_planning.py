@@ -14,12 +14,10 @@ import pytest
 from builders import fiber_type, scenario, single_cable, weighted_datacenter_chain
 
 from sdmnet.inputs.model import Architecture, Cable, PlanSpec, Site, Topology
-from sdmnet.planning.dimensioning import (
-    analytic_first_guess,
-    congestion_from_utilisation,
-    plan_architecture,
-    run_plan,
-)
+from sdmnet.planning.first_guess import analytic_first_guess
+from sdmnet.planning.ranking import congestion_from_utilisation
+from sdmnet.planning.run import run_plan
+from sdmnet.planning.search import plan_architecture
 from sdmnet.sim.stats import summarize_point
 from sdmnet.sim.sweep import run_sweep
 

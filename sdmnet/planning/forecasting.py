@@ -1,6 +1,6 @@
 """Growth: the plan year by year as the demand grows, never removing a fiber once planned.
 
-Year 0 is the plan (:func:`sdmnet.planning.dimensioning.plan_architecture`).  Year ``y`` scales every load
+Year 0 is the plan (:func:`sdmnet.planning.search.plan_architecture`).  Year ``y`` scales every load
 point by ``ForecastSpec.factor(y)`` (relative to year 0), starts from year ``y - 1``'s fibers
 and dimensions again with those fibers as the floor: it grows until the target holds at the
 scaled dimensioning load, then trims only what it added this year.  Each year is simulated
@@ -24,15 +24,10 @@ from ..inputs.model import ForecastSpec, Scenario
 from ..output.figures import forecast_figure
 from ..output.tables import write_table
 from ..sim.progress import ProgressBar
-from .dimensioning import (
-    DEFAULT_MAX_CANDIDATES,
-    ArchitecturePlan,
-    candidate_rows,
-    finish_run,
-    plan_architecture,
-    start_run,
-    totals_row,
-)
+from .candidates import DEFAULT_MAX_CANDIDATES
+from .run import finish_run, start_run
+from .search import ArchitecturePlan, plan_architecture
+from .tables import candidate_rows, totals_row
 
 __all__ = [
     "FORECAST_COLUMNS",

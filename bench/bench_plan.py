@@ -1,0 +1,137 @@
+"""Wall time of ``plan`` on a generated 30-site region, with candidates simulated and prepare calls.
+
+Run with ``.venv/bin/python bench/bench_plan.py [--sites N] [--load E] [--jobs J]``.
+
+The region (invented for the benchmark, seed fixed): ``N`` datacenter sites scattered over a
+square of 500 km, joined by a ring (sites in order of their angle around the centre) plus a cable
+from every site to its two nearest neighbours; one pair of weakly coupled 7-core fiber with 64
+channels per cable; uniform traffic of 1, 2 and 4-lane demands (100/200/400 Gb/s at 100 Gb/s a
+lane); k = 3 paths.  Two architectures are planned: per core (independent, lane change) and joint.
+
+Printed per architecture: candidates simulated, planned fiber pairs, blocking with its interval,
+and for the whole run: wall time and how many times the engine's ``prepare`` (routes and
+physics) ran.  No assertions: the figures are for reading.  The machine may be shared: wall
+times move with its load; the candidate and prepare counts do not.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import math
+import pkgutil
+import sys
+import tempfile
+import time
+
+import numpy as np
+
+import sdmnet
+import sdmnet.sim.engine as engine
+from sdmnet import api
+from sdmnet.inputs.model import (
+    Architecture,
+    Cable,
+    FiberType,
+    PlanSpec,
+    RunSpec,
+    Scenario,
+    Site,
+    Topology,
+    TrafficSpec,
+    TransceiverSpec,
+)
+
+SIZES = ((100.0, 0.5), (200.0, 0.3), (400.0, 0.2))
+ARCHITECTURES = (
+    Architecture("per-core", "independent", lane_change=True),
+    Architecture("joint", "joint"),
+)
+
+
+def region(sites: int, seed: int = 3, side_km: float = 500.0) -> Topology:
+    """A ring plus nearest-neighbour cables over ``sites`` random datacenters."""
+    rng = np.random.default_rng(seed)
+    xy = rng.uniform(0.0, side_km, size=(sites, 2))
+    ids = [f"R{i:02d}" for i in range(sites)]
+    centre = xy.mean(axis=0)
+    order = np.argsort(np.arctan2(xy[:, 1] - centre[1], xy[:, 0] - centre[0]))
+    edges = {tuple(sorted((int(a), int(b)))) for a, b in zip(order, np.roll(order, -1))}
+    dist = np.hypot(*(xy[:, None, :] - xy[None, :, :]).transpose(2, 0, 1))
+    for i in range(sites):
+        for j in np.argsort(dist[i])[1:3]:
+            edges.add(tuple(sorted((i, int(j)))))
+    fiber = FiberType("mcf7", 7, "weak", 1, 64, 0.22, crosstalk_db_per_km=-61.4)
+    cables = tuple(
+        Cable(ids[a], ids[b], max(5.0, round(float(dist[a, b]) * 1.2, 1)), fiber.name, 1) for a, b in sorted(edges)
+    )
+    site_list = tuple(Site(ids[i], "datacenter", x_km=float(xy[i, 0]), y_km=float(xy[i, 1])) for i in range(sites))
+    return Topology(f"region-{sites}", {fiber.name: fiber}, site_list, cables)
+
+
+def region_scenario(sites: int, load: float, requests: int, replications: int) -> Scenario:
+    """The benchmark scenario: the region, its traffic and a 1 % target."""
+    return Scenario(
+        name="bench-plan",
+        topology=region(sites),
+        seed=2024,
+        traffic=TrafficSpec("uniform", (load,), 1.0, SIZES),
+        # Long-haul figures: amplified spans make the loss of a path no limit here.
+        transceiver=TransceiverSpec(lane_gbps=100.0, reach_km=2500.0, power_budget_db=1000.0),
+        run=RunSpec(requests, requests // 10, replications, 3),
+        architectures=ARCHITECTURES,
+        plan=PlanSpec(target_blocking=0.01),
+    )
+
+
+class PrepareCounter:
+    """Counts calls of the engine's ``prepare`` wherever a module of the package imported it."""
+
+    def __init__(self) -> None:
+        self.calls = 0
+        original = engine.prepare
+
+        def counted(*args, **kwargs):
+            self.calls += 1
+            return original(*args, **kwargs)
+
+        for info in pkgutil.walk_packages(sdmnet.__path__, "sdmnet."):
+            if info.name.endswith("__main__"):
+                continue
+            try:
+                importlib.import_module(info.name)
+            except ImportError:
+                continue
+        for module in list(sys.modules.values()):
+            if getattr(module, "__name__", "").startswith("sdmnet") and getattr(module, "prepare", None) is original:
+                module.prepare = counted
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--sites", type=int, default=30)
+    parser.add_argument("--load", type=float, default=3000.0)
+    parser.add_argument("--requests", type=int, default=20_000)
+    parser.add_argument("--replications", type=int, default=5)
+    parser.add_argument("--jobs", type=int, default=1)
+    args = parser.parse_args(argv)
+    scenario = region_scenario(args.sites, args.load, args.requests, args.replications)
+    topo = scenario.topology
+    print(f"region: {len(topo.sites)} sites, {len(topo.cables)} cables, "
+          f"{math.comb(len(topo.sites), 2)} pairs, load {args.load:g} Erlang, "
+          f"{args.replications} x {args.requests} requests per candidate (first batch), jobs {args.jobs}")  # fmt: skip
+    counter = PrepareCounter()
+    with tempfile.TemporaryDirectory() as out:
+        started = time.perf_counter()
+        result = api.plan(scenario, out, jobs=args.jobs, progress=False)
+        wall = time.perf_counter() - started
+    for plan in result.plans:
+        iv = plan.evaluation.point.blocking
+        print(f"{plan.architecture.name:<10} candidates {plan.candidates:>3}  fiber pairs {sum(plan.fiber_pairs):>4}  "
+              f"blocking {iv.mean:.4f} [{iv.low:.4f}, {iv.high:.4f}]  met {plan.met}")  # fmt: skip
+    print(f"wall time {wall:.1f} s, prepare calls {counter.calls} ({len(scenario.architectures)} architectures)")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -9,7 +9,8 @@ import pytest
 from builders import fiber_type, scenario, single_cable, weighted_datacenter_chain
 
 from sdmnet.inputs.model import Architecture, ForecastSpec, PlanSpec
-from sdmnet.planning.forecasting import run_forecast, year_scenario
+from sdmnet.network.traffic import pair_weights
+from sdmnet.planning.forecasting import forecast_year, run_forecast, year_scenario
 from sdmnet.planning.run import run_plan
 
 TARGET = 0.01
@@ -110,3 +111,39 @@ def test_one_cable_forecast_adds_the_fiber_pairs_erlang_b_asks_for_each_year(tmp
     sc = replace(sc, plan=PlanSpec(0.02), forecast=ForecastSpec(years=len(factors), factors=factors))
     result = run_forecast(sc, tmp_path, progress=False)
     assert result.forecast.sort_values("year")["fiber_pairs"].tolist() == expected_pairs
+
+
+def test_site_growth_and_lane_roadmap_shape_each_year():
+    # Site C grows 50 % a year on top of the overall 10 %: pairs at C gain share, the total grows
+    # by the overall factor times the load-weighted mean of the pairs' site multipliers.
+    sc = _chain_scenario()
+    spec = ForecastSpec(years=2, growth_per_year=0.1, site_growth={"C": 0.5}, lane_gbps_by_year=(100.0, 200.0))
+    sc = replace(sc, forecast=spec)
+    year2, factor = forecast_year(sc, 2)
+    shares = pair_weights(sc.topology, sc.traffic)  # gravity 3 : 1 : 2 -> AB 3, AC 6, BC 2 of 11
+    multiplier = {p: (1.5**2 if "C" in p else 1.0) ** 0.5 for p in shares}
+    assert factor == pytest.approx(1.1**2 * sum(w * multiplier[p] for p, w in shares.items()))
+    assert year2.traffic.loads_erlang == pytest.approx(tuple(x * factor for x in sc.traffic.loads_erlang))
+    grown = pair_weights(sc.topology, year2.traffic)
+    assert grown[("A", "C")] / grown[("A", "B")] == pytest.approx(2.0 * 1.5)
+    assert year2.transceiver.lane_gbps == 200.0
+    assert forecast_year(sc, 0) == (sc, 1.0)
+
+
+def test_forecast_in_money_with_a_growth_band(tmp_path):
+    sc = _chain_scenario()
+    sc = replace(sc, forecast=ForecastSpec(years=2, growth_per_year=0.3, growth_band=(0.1, 0.6)))
+    run_forecast(sc, tmp_path, progress=False)
+    totals = pd.read_csv(tmp_path / "forecast_totals.csv")
+    for column in ("cost", "power_w", "cost_added", "power_added_w", "lane_gbps"):
+        assert column in totals.columns
+    assert (totals["cost"].diff().dropna() >= 0).all()
+    assert totals["cost_added"].sum() == pytest.approx(totals["cost"].iloc[-1])
+    band = pd.read_csv(tmp_path / "forecast_band.csv")
+    assert set(band["case"]) == {"low", "base", "high"}
+    wide = band.pivot(index="year", columns="case", values="load_factor")
+    assert wide.loc[2, "low"] == pytest.approx(1.1**2) and wide.loc[2, "high"] == pytest.approx(1.6**2)
+    cost = band.pivot(index="year", columns="case", values="cost")
+    # More growth never needs less: fibers are only ever added, and each case meets its target.
+    assert (cost["low"] <= cost["high"] + 1e-9).all()
+    assert (tmp_path / "forecast_cost.png").stat().st_size > 1000

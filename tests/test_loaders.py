@@ -544,6 +544,31 @@ BAD_SCENARIOS = [
         "forecast.growth_per_year: growth 1e+300 per year over 2 years is too large to compute",
     ),
     Bad(
+        "forecast-lane-roadmap-length",
+        scenario_with("growth_per_year = 0.3", "growth_per_year = 0.3\nlane_gbps_by_year = [400.0]"),
+        "forecast.lane_gbps_by_year: has 1 values for 2 years: give one per year (1..2)",
+    ),
+    Bad(
+        "forecast-lane-rate-zero",
+        scenario_with("growth_per_year = 0.3", "growth_per_year = 0.3\nlane_gbps_by_year = [400.0, 0.0]"),
+        "forecast.lane_gbps_by_year: must be > 0, got 0",
+    ),
+    Bad(
+        "forecast-band-around-base",
+        scenario_with("growth_per_year = 0.3", "growth_per_year = 0.3\ngrowth_band = [0.4, 0.6]"),
+        "forecast.growth_band: give [low, high] yearly growth rates around growth_per_year",
+    ),
+    Bad(
+        "forecast-site-growth-unknown",
+        scenario_with("growth_per_year = 0.3", "growth_per_year = 0.3\nsite_growth = { Q = 0.1 }"),
+        "forecast.site_growth.Q: no datacenter 'Q' in the topology",
+    ),
+    Bad(
+        "forecast-site-growth-below-minus-one",
+        scenario_with("growth_per_year = 0.3", "growth_per_year = 0.3\nsite_growth = { A = -1.0 }"),
+        "forecast.site_growth: must be > -1, got -1",
+    ),
+    Bad(
         "matrix-file-missing",
         {"scen.toml": MATRIX_SCENARIO, "topo.toml": TOPOLOGY},
         "traffic.matrix: file not found: {tmp}/m.csv",

@@ -393,6 +393,9 @@ LIMITS: dict[tuple[type, str], Limit] = {
     (ForecastSpec, "years"): lambda v: _at_least(1)(v) or _at_most(MAX_FORECAST_YEARS)(v),
     (ForecastSpec, "growth_per_year"): _greater(-1),
     (ForecastSpec, "factors"): _each(_greater(0)),
+    (ForecastSpec, "lane_gbps_by_year"): _each(_greater(0)),
+    (ForecastSpec, "site_growth"): _each(_greater(-1)),
+    (ForecastSpec, "growth_band"): _each(_greater(-1)),
 }
 
 
@@ -980,6 +983,12 @@ def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
     architectures = _architectures(doc, data["architectures"], topology)
     plan = _plan(doc, data["plan"]) if "plan" in data else None
     forecast = _forecast(doc, data["forecast"]) if "forecast" in data else None
+    if forecast is not None:
+        datacenters = {s.id for s in topology.datacenters}
+        for site in forecast.site_growth:
+            if site not in datacenters:
+                doc.fail(f"forecast.site_growth.{site}", f"no datacenter '{site}' in the topology"
+                         f"{_did_you_mean(site, datacenters)}")  # fmt: skip
     line = _section(doc, data, "line", LineSpec)
     transceivers = _transceiver_classes(doc, data["transceivers"]) if "transceivers" in data else ()
     _check_channel_slots(doc, topology, architectures, line, transceiver, transceivers)
@@ -1073,6 +1082,13 @@ def _plan(doc: _Doc, value: Any) -> PlanSpec:
     return PlanSpec(**_read_fields(doc, "plan", table, PlanSpec))
 
 
+def _forecast_growth_fits(doc: _Doc, where: str, rate: float, years: int) -> None:
+    try:
+        (1.0 + rate) ** years
+    except OverflowError:
+        doc.fail(where, f"growth {rate:g} per year over {years} years is too large to compute")
+
+
 def _forecast(doc: _Doc, value: Any) -> ForecastSpec:
     values = _read_fields(doc, "forecast", _table(doc, "forecast", value), ForecastSpec)
     forecast = ForecastSpec(**values)
@@ -1089,6 +1105,22 @@ def _forecast(doc: _Doc, value: Any) -> ForecastSpec:
             "forecast.growth_per_year",
             f"growth {forecast.growth_per_year:g} per year over {forecast.years} years is too large to compute",
         )
+    if forecast.lane_gbps_by_year and len(forecast.lane_gbps_by_year) != forecast.years:
+        doc.fail(
+            "forecast.lane_gbps_by_year",
+            f"has {len(forecast.lane_gbps_by_year)} values for {forecast.years} years: give one per year "
+            f"(1..{forecast.years})",
+        )
+    if forecast.growth_band:
+        low_high = forecast.growth_band
+        if len(low_high) != 2 or not low_high[0] <= forecast.growth_per_year <= low_high[1]:
+            doc.fail("forecast.growth_band", "give [low, high] yearly growth rates around growth_per_year")
+        if forecast.factors:
+            doc.fail("forecast.growth_band", "needs growth_per_year, not explicit factors")
+        for rate in low_high:
+            _forecast_growth_fits(doc, "forecast.growth_band", rate, forecast.years)
+    for site, rate in forecast.site_growth.items():
+        _forecast_growth_fits(doc, f"forecast.site_growth.{site}", rate, forecast.years)
     return forecast
 
 

@@ -491,19 +491,37 @@ class ForecastSpec:
         Yearly growth rate (0.3 = +30 %/year), used when ``factors`` is empty.
     factors : tuple of float
         Optional explicit load factor per year 1..years (relative to year 0).
+    lane_gbps_by_year : tuple of float
+        Optional lane rate per year 1..years (newer transceivers carry more per lane); year 0
+        and an empty tuple use ``[transceiver] lane_gbps``.
+    site_growth : dict of str to float
+        Extra yearly growth of the traffic of a datacenter, on top of the overall growth: a
+        pair's load is multiplied by the geometric mean of its two ends' ``(1 + g) ** year``.
+    growth_band : tuple of float
+        Optional ``(low, high)`` yearly growth rates planned beside ``growth_per_year`` and drawn
+        as a band (used when ``factors`` is empty).
     """
 
     years: int = 5
     growth_per_year: float = 0.3
     factors: tuple[float, ...] = ()
+    lane_gbps_by_year: tuple[float, ...] = ()
+    site_growth: dict[str, float] = field(default_factory=dict)
+    growth_band: tuple[float, ...] = ()
 
-    def factor(self, year: int) -> float:
-        """Load multiplier of ``year`` relative to year 0."""
+    def factor(self, year: int, growth: float | None = None) -> float:
+        """Load multiplier of ``year`` relative to year 0 (at yearly ``growth`` when given)."""
         if year == 0:
             return 1.0
-        if self.factors:
+        if self.factors and growth is None:
             return self.factors[year - 1]
-        return (1.0 + self.growth_per_year) ** year
+        return (1.0 + (self.growth_per_year if growth is None else growth)) ** year
+
+    def lane_gbps(self, year: int, base: float) -> float:
+        """Lane rate in ``year`` (``base``, the ``[transceiver]`` rate, in year 0 or without a roadmap)."""
+        if year == 0 or not self.lane_gbps_by_year:
+            return base
+        return self.lane_gbps_by_year[year - 1]
 
 
 @dataclass(frozen=True)

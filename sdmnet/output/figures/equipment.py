@@ -100,21 +100,38 @@ def resources_figure(summary: pd.DataFrame, path: Path) -> Path:
 
 
 @with_look
-def forecast_figure(totals: pd.DataFrame, path: Path) -> Path:
-    """Fiber pairs, transceiver modules and switch ports year by year, per architecture.
+def _draw_band(ax, band: pd.DataFrame | None, name: str, column: str, color: object) -> None:
+    """Shade the low-high growth range of ``column`` for one architecture, if the band has it."""
+    if band is None or band.empty or column not in band.columns or "case" not in band.columns:
+        return
+    mine = band[band["architecture"].astype(str) == name]
+    low = mine[mine["case"] == "low"].sort_values("year", kind="stable")
+    high = mine[mine["case"] == "high"].sort_values("year", kind="stable")
+    if len(low) and len(low) == len(high):
+        ax.fill_between(low["year"], low[column].astype(float), high[column].astype(float), color=color,
+                        alpha=0.18, linewidth=0, label=f"{name}: low-high growth")  # fmt: skip
+
+
+def forecast_figure(totals: pd.DataFrame, path: Path, band: pd.DataFrame | None = None) -> Path:
+    """Fiber pairs, transceiver modules, switch ports, cost and watts year by year, per architecture.
 
     Parameters
     ----------
     totals : DataFrame
         One row per (year, architecture): ``year, architecture`` and any of ``fiber_pairs``,
-        ``transceivers_peak``, ``switch_ports`` (network totals).
+        ``transceivers_peak``, ``switch_ports``, ``cost``, ``power_w`` (network totals).
     path : path
         PNG to write.
+    band : DataFrame, optional
+        ``forecast_band.csv``: rows of ``case`` low/base/high per (year, architecture); a panel
+        whose column it holds is drawn with the low-high range shaded around the line.
     """
     wanted = [
         ("fiber_pairs", "fiber pairs installed (pairs)", "Fiber pairs"),
         ("transceivers_peak", "peak transceiver modules (modules)", "Transceivers"),
         ("switch_ports", "switch ports installed (ports)", "Switch ports"),
+        ("cost", "total cost (relative units)", "Cost"),
+        ("power_w", "power drawn (W)", "Power"),
     ]
     panels = [w for w in wanted if w[0] in totals.columns]
     order = architectures_in(totals)
@@ -122,7 +139,9 @@ def forecast_figure(totals: pd.DataFrame, path: Path) -> Path:
     for ax, (column, label, title) in zip(axes[0], panels):
         for i, name in enumerate(order):
             part = totals[totals["architecture"].astype(str) == name].sort_values("year", kind="stable")
-            ax.plot(part["year"], part[column].astype(float), label=name, **style_for(i))
+            style = style_for(i)
+            ax.plot(part["year"], part[column].astype(float), label=name, **style)
+            _draw_band(ax, band, name, column, style.get("color"))
         ax.set_xlabel("year of the forecast")
         ax.set_ylabel(label)
         ax.set_title(title)

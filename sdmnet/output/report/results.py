@@ -26,6 +26,7 @@ RESULT_TABLES = (
     "plan_totals",
     "forecast",
     "forecast_totals",
+    "forecast_band",
 )
 
 # Columns read as text whatever they hold (site ids may look like numbers).

@@ -329,9 +329,9 @@ def forecast(res: ResultFolder) -> Section | None:
     if totals is not None:
         if any(c in totals.columns for c in ("fiber_pairs", "transceivers_peak", "switch_ports")):
             data["figure"] = figure(
-                figures.forecast_figure(totals, res.path / "forecast.png"),
-                "Line charts of fiber pairs, transceivers and switch ports by year",
-                "Network totals year by year under the forecast growth.",
+                figures.forecast_figure(totals, res.path / "forecast.png", band=res.table("forecast_band")),
+                "Line charts of fiber pairs, transceivers, switch ports, cost and power by year",
+                "Network totals year by year under the forecast growth (shaded: low to high growth, where given).",
             )
         data["totals"] = table(totals, caption=f"Network totals per year and architecture ({source})")
     notes = res.path / "forecast_notes.txt"

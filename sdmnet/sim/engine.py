@@ -606,50 +606,28 @@ def simulate_replication(
     forked worker, copy the pages they sit on).
     """
     started = time.perf_counter()
-    arch = setup.architecture
     if load_erlang <= 0:
         raise ValueError("load_erlang must be positive")
-    rate = load_erlang / setup.mean_holding
-    sizes = setup.sizes_gbps
-    nclass, npair, nsite, ncable = len(sizes), len(setup.pairs), len(setup.sites), len(setup.cables)
-    class_offered = np.zeros(nclass, dtype=np.int64)
-    pair_offered = np.zeros(npair, dtype=np.int64)
-    batches = STEADY_BATCHES if requests >= STEADY_BATCHES else 0
-    pair_batch_offered = np.zeros((npair, batches), dtype=np.int64)
-    pair_batch_blocked = [[0] * batches for _ in range(npair)]
-    arrivals = _arrivals(
-        replication_seed(seed, replication), setup, rate, range(warmup, warmup + requests), class_offered,
-        pair_offered, pair_batch_offered if batches else None,
-    )  # fmt: skip
-    env = simpy.Environment()
+    arch = setup.architecture
+    run = _start_run(setup, load_erlang, seed, replication, requests, warmup)
+    env, state, coding, sizes = run.env, run.state, run.coding, setup.sizes_gbps
     schedule = env.schedule
-    state: UnitState | FiberState
-    if setup.whole_fiber:
-        state = FiberState(setup.fiber_pairs)
-    else:
-        state = UnitState(setup.fiber_pairs, setup.groups_per_fiber, setup.channels, arch.lane_change)
     take, give_back = state.take, state.give_back
-    busy = state.busy_units
     share = arch.share
-    whole_fiber = setup.whole_fiber
-    coding = _SiteCoding.for_setup(setup)
     code = coding.code
-    route_table, kinds = _route_table(setup, coding)
-    route_gbps, route_lanes = setup.route_unit_gbps, setup.route_lanes_per_module
-    lane_gbps = setup.lane_gbps
-
-    class_blocked = [0] * nclass
-    pair_blocked = [0] * npair
-    site_state = [0] * nsite  # each site's figure (_SiteCoding): lanes, or packed counts
-    site_peak = [0] * nsite
-    site_stamp = [0] * nsite
-    cable_stamp = [0] * ncable
-    kind_stamp = [0] * len(kinds)
+    route_table, batches = run.route_table, run.batches
+    nsite = len(setup.sites)
+    # The counters: what the hot loop below changes at every arrival, as local names for speed.
+    class_blocked, pair_blocked, pair_batch_blocked = run.class_blocked, run.pair_blocked, run.pair_batch_blocked
+    site_state, site_peak, site_stamp = run.site_state, run.site_peak, run.site_stamp
+    cable_stamp, kind_stamp = run.cable_stamp, run.kind_stamp
     hist = [coding.empty_histogram(s) for s in range(nsite)]
     m = -warmup  # measured arrivals so far; counts up to 0 through the warm-up
     modules = lanes = modules_peak = lanes_peak = modules_stamp = lanes_stamp = 0
     blocked_gbps = 0.0
-    lit: dict[tuple[int, int], list[_LitUnit]] = {}
+
+    def measured() -> int:
+        return m
 
     def release_own(event: _Departure) -> None:
         nonlocal modules, lanes
@@ -682,122 +660,9 @@ def simulate_replication(
         site_peak[a] = max(site_peak[a], site_state[a])
         site_peak[b] = max(site_peak[b], site_state[b])
 
-    def refill(unit: _LitUnit, a: int, b: int) -> None:
-        # A lit unit's modules follow the capacity it carries (unit switching only).
-        c = unit.lanes_per_module
-        if c:
-            per_end = modules_per_end(unit.used, lane_gbps, c)
-            if per_end != unit.modules:
-                change_modules(a, b, per_end - unit.modules, c)
-                unit.modules = per_end
-
-    def release_shared(event: _Departure) -> None:
-        _grant, (per_end, c, a, b, parts) = event.booking
-        for unit, amount in parts:
-            unit.used -= amount
-            unit.spare += amount
-            if unit.used <= 1e-9:
-                unit.used = 0.0
-                give_back(unit.grant)
-                for h in unit.cables:
-                    cable_stamp[h] += m
-                lit[unit.key].remove(unit)
-            refill(unit, a, b)
-        if per_end:
-            change_modules(a, b, -per_end, c)
-        if observer is not None:
-            observer("release", event)
-
-    def book_shared(p: int, k: int) -> tuple | None:
-        size = sizes[k]
-        for r, (cables, _units, route_kinds) in enumerate(route_table[p]):
-            # Spare capacity of units already lit on this route first, then new units.
-            units = lit.setdefault((p, r), [])
-            plan, need = [], size
-            for unit in units:
-                if need <= 1e-9:
-                    break
-                if unit.spare > 1e-9:
-                    amount = min(unit.spare, need)
-                    plan.append((unit, amount))
-                    need -= amount
-            gbps = route_gbps[p][r]
-            new = max(0, math.ceil(need / gbps - 1e-9)) if need > 1e-9 else 0
-            grants: list[Grant] = []
-            # Each new unit is booked separately so that it can be released on its own.
-            for _ in range(new):
-                g = take(cables, 1)
-                if g is None:
-                    for g_back in grants:
-                        give_back(g_back)
-                    break
-                grants.append(g)
-            else:
-                return light_units(p, r, cables, route_kinds[k][1] // 2, plan, need, grants)
-        return None
-
-    def light_units(
-        p: int, r: int, cables: tuple[int, ...], per_end: int, plan: list, need: float, grants: list
-    ) -> tuple:
-        a, b = setup.pair_sites[p]
-        gbps = route_gbps[p][r]
-        c = route_lanes[p][r]
-        units = lit[(p, r)]
-        for g in grants:
-            unit = _LitUnit(g, gbps, (p, r), 0 if whole_fiber else c, cables)
-            for h in cables:
-                cable_stamp[h] -= m
-            amount = min(gbps, need)
-            need -= amount
-            units.append(unit)
-            plan.append((unit, amount))
-        for unit, amount in plan:
-            unit.spare -= amount
-            unit.used += amount
-            refill(unit, a, b)
-        # Fiber switching: the demand's own modules, whatever fiber carries it; unit switching:
-        # the modules belong to the lit units (refilled above).
-        per_end = per_end if whole_fiber else 0
-        if per_end:
-            change_modules(a, b, per_end, c)
-        return ([], (per_end, c, a, b, plan))
-
-    # Fiber switching with provisioned fiber paths: the paths hold their fibers for the whole
-    # run; a demand takes lanes of its pair's paths, in route order (docs/model.md, section 3).
-    provisioned = share and whole_fiber and setup.provisioned_fibers
-    held: list[Grant] = []
-    spare_lanes: list[list[int]] = []
-    if provisioned:
-        per_fiber, demand_lanes = _fiber_lanes(setup)
-        for p, per_route in enumerate(fiber_plan(setup, load_erlang)):
-            for r, n in enumerate(per_route):
-                for _ in range(n):
-                    g = take(route_table[p][r][0], 1)
-                    assert g is not None, "provisioned fiber paths exceed the cables"
-                    held.append(g)
-            spare_lanes.append([n * per_fiber[p][r] for r, n in enumerate(per_route)])
-
-    def book_provisioned(p: int, k: int) -> tuple | None:
-        row = spare_lanes[p]
-        for r, free in enumerate(row):
-            need = demand_lanes[p][r][k]
-            if free >= need:
-                row[r] = free - need
-                per_end, c = route_table[p][r][2][k][1] // 2, route_lanes[p][r]
-                a, b = setup.pair_sites[p]
-                change_modules(a, b, per_end, c)
-                return ([], (per_end, c, a, b, p, r, need))
-        return None
-
-    def release_provisioned(event: _Departure) -> None:
-        _grant, (per_end, c, a, b, p, r, need) = event.booking
-        spare_lanes[p][r] += need
-        change_modules(a, b, -per_end, c)
-        if observer is not None:
-            observer("release", event)
-
-    book_groomed = book_provisioned if provisioned else book_shared
-    release = release_provisioned if provisioned else release_shared if share else release_own
+    grooming = _Grooming(setup, run, load_erlang, change_modules, measured, observer) if share else None
+    book_groomed = grooming.book if grooming is not None else None
+    release = grooming.release if grooming is not None else release_own
     departure = _Departure.for_run(env, release)
     # Arrivals are a plain loop over the records; departures are events on SimPy's queue, and
     # the loop lets SimPy process every departure due before each arrival (env.peek / env.step).
@@ -807,7 +672,7 @@ def simulate_replication(
     peek, step = env.peek, env.step
     t = 0.0
     for measuring, count in ((False, warmup), (True, requests)):
-        records = islice(arrivals, count)
+        records = islice(run.arrivals, count)
         if measuring:
             # The measured period starts at its first arrival: what departs before it still
             # belongs to the warm-up, and every change until then is part of the starting state.
@@ -876,44 +741,294 @@ def simulate_replication(
                     observer("book", leave)
     if drain:
         env.run()
-        for g in held:
-            give_back(g)
-    end_time = max(t, env.now)
+        if grooming is not None:
+            grooming.give_back_held()
+    d_modules_stamp, d_lanes_stamp = _spread_kind_stamps(run)
+    totals = _Totals(
+        m, modules, lanes, modules_peak, lanes_peak, modules_stamp + d_modules_stamp, lanes_stamp + d_lanes_stamp,
+        blocked_gbps, hist,
+    )
+    return _final_record(
+        setup, run, totals, load_erlang=load_erlang, replication=replication, requests=requests,
+        end_time=max(t, env.now), wall_time_s=time.perf_counter() - started, drain=drain,
+    )  # fmt: skip
 
-    # Spread the kinds' stamps over the cables, sites and totals they stand for.
-    for (cables, units, (_j, d_modules, d_lanes, a, b, code_a, code_b)), stamp in zip(kinds, kind_stamp):
+
+@dataclass
+class _Run:
+    """One replication's set-up: its random arrivals, SimPy environment, occupancy, route table,
+    and the per-class, per-pair, per-site and per-cable counters the run fills in."""
+
+    env: simpy.Environment
+    state: UnitState | FiberState
+    coding: _SiteCoding
+    route_table: list
+    kinds: list[tuple[tuple[int, ...], int, _BookingKind]]
+    arrivals: Iterator[tuple[float, int, int, int, int, float]]
+    batches: int
+    class_offered: np.ndarray
+    pair_offered: np.ndarray
+    pair_batch_offered: np.ndarray
+    class_blocked: list[int]
+    pair_blocked: list[int]
+    pair_batch_blocked: list[list[int]]
+    site_state: list[int]  # each site's figure (_SiteCoding): lanes, or packed counts
+    site_peak: list[int]
+    site_stamp: list[int]
+    cable_stamp: list[int]
+    kind_stamp: list[int]
+
+
+def _start_run(
+    setup: EngineSetup, load_erlang: float, seed: int, replication: int, requests: int, warmup: int
+) -> _Run:
+    """Everything one replication needs before its first arrival (see :func:`simulate_replication`)."""
+    nclass, npair, nsite, ncable = len(setup.sizes_gbps), len(setup.pairs), len(setup.sites), len(setup.cables)
+    class_offered = np.zeros(nclass, dtype=np.int64)
+    pair_offered = np.zeros(npair, dtype=np.int64)
+    batches = STEADY_BATCHES if requests >= STEADY_BATCHES else 0
+    pair_batch_offered = np.zeros((npair, batches), dtype=np.int64)
+    arrivals = _arrivals(
+        replication_seed(seed, replication), setup, load_erlang / setup.mean_holding,
+        range(warmup, warmup + requests), class_offered, pair_offered, pair_batch_offered if batches else None,
+    )  # fmt: skip
+    state: UnitState | FiberState
+    if setup.whole_fiber:
+        state = FiberState(setup.fiber_pairs)
+    else:
+        state = UnitState(setup.fiber_pairs, setup.groups_per_fiber, setup.channels, setup.architecture.lane_change)
+    coding = _SiteCoding.for_setup(setup)
+    route_table, kinds = _route_table(setup, coding)
+    return _Run(
+        env=simpy.Environment(), state=state, coding=coding, route_table=route_table, kinds=kinds,
+        arrivals=arrivals, batches=batches, class_offered=class_offered, pair_offered=pair_offered,
+        pair_batch_offered=pair_batch_offered, class_blocked=[0] * nclass, pair_blocked=[0] * npair,
+        pair_batch_blocked=[[0] * batches for _ in range(npair)], site_state=[0] * nsite,
+        site_peak=[0] * nsite, site_stamp=[0] * nsite, cable_stamp=[0] * ncable, kind_stamp=[0] * len(kinds),
+    )  # fmt: skip
+
+
+class _Grooming:
+    """Booking kinds of grooming (``share``): demands fill the spare capacity of lit units.
+
+    Unit switching and fiber switching without provisioning light units on demand and put them
+    dark when their last demand departs; fiber switching with provisioned fiber paths holds its
+    pair's paths for the whole run and hands out their lanes (docs/model.md, section 3).
+    ``change_modules`` moves the run's transceiver counters and ``measured`` tells the count of
+    measured arrivals, for the cables' stamps (see :func:`simulate_replication`).
+    """
+
+    def __init__(
+        self,
+        setup: EngineSetup,
+        run: _Run,
+        load_erlang: float,
+        change_modules: Callable[[int, int, int, int], None],
+        measured: Callable[[], int],
+        observer: Callable[[str, object], None] | None,
+    ) -> None:
+        self.setup, self.run = setup, run
+        self.change_modules, self.measured, self.observer = change_modules, measured, observer
+        self.lit: dict[tuple[int, int], list[_LitUnit]] = {}
+        self.held: list[Grant] = []
+        self.spare_lanes: list[list[int]] = []
+        self.provisioned = setup.whole_fiber and bool(setup.provisioned_fibers)
+        if self.provisioned:
+            self.book, self.release = self.book_provisioned, self.release_provisioned
+            per_fiber, self.demand_lanes = _fiber_lanes(setup)
+            for p, per_route in enumerate(fiber_plan(setup, load_erlang)):
+                for r, n in enumerate(per_route):
+                    for _ in range(n):
+                        g = run.state.take(run.route_table[p][r][0], 1)
+                        assert g is not None, "provisioned fiber paths exceed the cables"
+                        self.held.append(g)
+                self.spare_lanes.append([n * per_fiber[p][r] for r, n in enumerate(per_route)])
+        else:
+            self.book, self.release = self.book_shared, self.release_shared
+
+    def give_back_held(self) -> None:
+        """Return the provisioned fibers (at the end of a drained run)."""
+        for g in self.held:
+            self.run.state.give_back(g)
+
+    def refill(self, unit: _LitUnit, a: int, b: int) -> None:
+        """A lit unit's modules follow the capacity it carries (unit switching only)."""
+        c = unit.lanes_per_module
+        if c:
+            per_end = modules_per_end(unit.used, self.setup.lane_gbps, c)
+            if per_end != unit.modules:
+                self.change_modules(a, b, per_end - unit.modules, c)
+                unit.modules = per_end
+
+    def book_shared(self, p: int, k: int) -> tuple | None:
+        take, give_back = self.run.state.take, self.run.state.give_back
+        size = self.setup.sizes_gbps[k]
+        for r, (cables, _units, route_kinds) in enumerate(self.run.route_table[p]):
+            # Spare capacity of units already lit on this route first, then new units.
+            units = self.lit.setdefault((p, r), [])
+            plan, need = [], size
+            for unit in units:
+                if need <= 1e-9:
+                    break
+                if unit.spare > 1e-9:
+                    amount = min(unit.spare, need)
+                    plan.append((unit, amount))
+                    need -= amount
+            gbps = self.setup.route_unit_gbps[p][r]
+            new = max(0, math.ceil(need / gbps - 1e-9)) if need > 1e-9 else 0
+            grants: list[Grant] = []
+            # Each new unit is booked separately so that it can be released on its own.
+            for _ in range(new):
+                g = take(cables, 1)
+                if g is None:
+                    for g_back in grants:
+                        give_back(g_back)
+                    break
+                grants.append(g)
+            else:
+                return self.light_units(p, r, cables, route_kinds[k][1] // 2, plan, need, grants)
+        return None
+
+    def light_units(
+        self, p: int, r: int, cables: tuple[int, ...], per_end: int, plan: list, need: float, grants: list
+    ) -> tuple:
+        setup, cable_stamp, m = self.setup, self.run.cable_stamp, self.measured()
+        a, b = setup.pair_sites[p]
+        gbps = setup.route_unit_gbps[p][r]
+        c = setup.route_lanes_per_module[p][r]
+        units = self.lit[(p, r)]
+        for g in grants:
+            unit = _LitUnit(g, gbps, (p, r), 0 if setup.whole_fiber else c, cables)
+            for h in cables:
+                cable_stamp[h] -= m
+            amount = min(gbps, need)
+            need -= amount
+            units.append(unit)
+            plan.append((unit, amount))
+        for unit, amount in plan:
+            unit.spare -= amount
+            unit.used += amount
+            self.refill(unit, a, b)
+        # Fiber switching: the demand's own modules, whatever fiber carries it; unit switching:
+        # the modules belong to the lit units (refilled above).
+        per_end = per_end if setup.whole_fiber else 0
+        if per_end:
+            self.change_modules(a, b, per_end, c)
+        return ([], (per_end, c, a, b, plan))
+
+    def release_shared(self, event: _Departure) -> None:
+        _grant, (per_end, c, a, b, parts) = event.booking
+        cable_stamp, m = self.run.cable_stamp, self.measured()
+        for unit, amount in parts:
+            unit.used -= amount
+            unit.spare += amount
+            if unit.used <= 1e-9:
+                unit.used = 0.0
+                self.run.state.give_back(unit.grant)
+                for h in unit.cables:
+                    cable_stamp[h] += m
+                self.lit[unit.key].remove(unit)
+            self.refill(unit, a, b)
+        if per_end:
+            self.change_modules(a, b, -per_end, c)
+        if self.observer is not None:
+            self.observer("release", event)
+
+    def book_provisioned(self, p: int, k: int) -> tuple | None:
+        row = self.spare_lanes[p]
+        for r, free in enumerate(row):
+            need = self.demand_lanes[p][r][k]
+            if free >= need:
+                row[r] = free - need
+                per_end, c = self.run.route_table[p][r][2][k][1] // 2, self.setup.route_lanes_per_module[p][r]
+                a, b = self.setup.pair_sites[p]
+                self.change_modules(a, b, per_end, c)
+                return ([], (per_end, c, a, b, p, r, need))
+        return None
+
+    def release_provisioned(self, event: _Departure) -> None:
+        _grant, (per_end, c, a, b, p, r, need) = event.booking
+        self.spare_lanes[p][r] += need
+        self.change_modules(a, b, -per_end, c)
+        if self.observer is not None:
+            self.observer("release", event)
+
+
+def _spread_kind_stamps(run: _Run) -> tuple[int, int]:
+    """Spread each booking kind's stamp over the cables and sites it stands for.
+
+    Returns what the kinds add to the modules' and the lanes' stamps.
+    """
+    d_modules = d_lanes = 0
+    for (cables, units, (_j, kind_modules, kind_lanes, a, b, code_a, code_b)), stamp in zip(run.kinds, run.kind_stamp):
         if stamp:
             for h in cables:
-                cable_stamp[h] += units * stamp
-            modules_stamp += d_modules * stamp
-            lanes_stamp += d_lanes * stamp
-            site_stamp[a] += code_a * stamp
-            site_stamp[b] += code_b * stamp
+                run.cable_stamp[h] += units * stamp
+            d_modules += kind_modules * stamp
+            d_lanes += kind_lanes * stamp
+            run.site_stamp[a] += code_a * stamp
+            run.site_stamp[b] += code_b * stamp
+    return d_modules, d_lanes
+
+
+@dataclass(frozen=True)
+class _Totals:
+    """The run's scalar counters at its end (see :func:`simulate_replication`)."""
+
+    m: int  # measured arrivals
+    modules: int
+    lanes: int
+    modules_peak: int
+    lanes_peak: int
+    modules_stamp: int
+    lanes_stamp: int
+    blocked_gbps: float
+    histograms: list
+
+
+def _final_record(
+    setup: EngineSetup,
+    run: _Run,
+    totals: _Totals,
+    *,
+    load_erlang: float,
+    replication: int,
+    requests: int,
+    end_time: float,
+    wall_time_s: float,
+    drain: bool,
+) -> ReplicationRecord:
+    """The record of a finished run: counts, time averages from the stamps, peaks, histograms."""
+    m, state, coding, sizes = totals.m, run.state, run.coding, setup.sizes_gbps
+    nsite, ncable = len(setup.sites), len(setup.cables)
     measured = max(requests, 1)
     capacity = [state.capacity_units(i) for i in range(ncable)]
-    cable_sum = [busy[h] * m + cable_stamp[h] for h in range(ncable)]
-    site_sums = [coding.decode(s, site_state[s] * m + site_stamp[s]) for s in range(nsite)]
-    site_histograms = [coding.histograms(s, hist[s]) for s in range(nsite)]
-    offered = class_offered.tolist()
+    cable_sum = [state.busy_units[h] * m + run.cable_stamp[h] for h in range(ncable)]
+    site_sums = [coding.decode(s, run.site_state[s] * m + run.site_stamp[s]) for s in range(nsite)]
+    site_histograms = [coding.histograms(s, totals.histograms[s]) for s in range(nsite)]
+    offered = run.class_offered.tolist()
+    ended_empty = None
+    if drain:
+        ended_empty = state.is_empty() and totals.modules == 0 and totals.lanes == 0 and not any(run.site_state)
     return ReplicationRecord(
-        architecture=arch.name,
+        architecture=setup.architecture.name,
         load_erlang=float(load_erlang),
         replication=replication,
         requests=sum(offered),
-        blocked=sum(class_blocked),
+        blocked=sum(run.class_blocked),
         offered_gbps=float(sum(n * s for n, s in zip(offered, sizes))),
-        blocked_gbps=blocked_gbps,
+        blocked_gbps=totals.blocked_gbps,
         class_offered=offered,
-        class_blocked=class_blocked,
-        pair_offered=pair_offered.tolist(),
-        pair_blocked=pair_blocked,
-        pair_batch_offered=pair_batch_offered.tolist(),
-        pair_batch_blocked=pair_batch_blocked,
-        transceivers_peak=modules_peak,
-        transceivers_mean=(modules * m + modules_stamp) / measured,
-        lanes_peak=lanes_peak,
-        lanes_mean=(lanes * m + lanes_stamp) / measured,
-        site_transceivers_peak=[coding.decode(s, site_peak[s])[0] for s in range(nsite)],
+        class_blocked=run.class_blocked,
+        pair_offered=run.pair_offered.tolist(),
+        pair_blocked=run.pair_blocked,
+        pair_batch_offered=run.pair_batch_offered.tolist(),
+        pair_batch_blocked=run.pair_batch_blocked,
+        transceivers_peak=totals.modules_peak,
+        transceivers_mean=(totals.modules * m + totals.modules_stamp) / measured,
+        lanes_peak=totals.lanes_peak,
+        lanes_mean=(totals.lanes * m + totals.lanes_stamp) / measured,
+        site_transceivers_peak=[coding.decode(s, run.site_peak[s])[0] for s in range(nsite)],
         site_transceivers_mean=[x[0] / measured for x in site_sums],
         site_lanes_mean=[x[1] / measured for x in site_sums],
         site_transceivers_histogram=[h[0] for h in site_histograms],
@@ -921,6 +1036,6 @@ def simulate_replication(
         site_mimo_lanes_histogram=[h[2] for h in site_histograms],
         cable_utilisation=[a / measured / cap if cap else 0.0 for a, cap in zip(cable_sum, capacity)],
         sim_time=float(end_time),
-        wall_time_s=time.perf_counter() - started,
-        ended_empty=(state.is_empty() and modules == 0 and lanes == 0 and not any(site_state)) if drain else None,
+        wall_time_s=wall_time_s,
+        ended_empty=ended_empty,
     )

@@ -8,6 +8,7 @@ import pandas as pd
 import pytest
 from builders import fiber_type, scenario, single_cable, weighted_datacenter_chain
 
+from sdmnet.analysis.analytic import erlang_b
 from sdmnet.inputs.model import Architecture, ForecastSpec, PlanSpec
 from sdmnet.network.traffic import pair_weights
 from sdmnet.planning.forecasting import forecast_year, run_forecast, year_scenario
@@ -76,14 +77,6 @@ TABLE_2PCT = {5: 1.657, 11: 5.842, 15: 9.010, 21: 14.036, 25: 17.505}
 CHANNELS = 5  # servers per fiber pair: a single-core fiber of 5 channels, one-lane demands
 
 
-def _erlang_b_recursion(servers: int, load: float) -> float:
-    # B(0) = 1, B(n) = A B(n-1) / (n + A B(n-1)) (Erlang's loss formula; docs/estimate.md).
-    b = 1.0
-    for n in range(1, servers + 1):
-        b = load * b / (n + load * b)
-    return b
-
-
 def test_one_cable_forecast_adds_the_fiber_pairs_erlang_b_asks_for_each_year(tmp_path):
     # Year loads 1.0, 7.3 and 15.5 Erlang at a 2 % target.  The table fixes the answer: 5
     # servers carry 1.657 E, so year 0 needs 1 pair; 11 servers carry only 5.842 E (so 10 do
@@ -95,14 +88,16 @@ def test_one_cable_forecast_adds_the_fiber_pairs_erlang_b_asks_for_each_year(tmp
         assert TABLE_2PCT[CHANNELS * pairs] >= load
         smaller = CHANNELS * (pairs - 1)
         assert smaller == 0 or TABLE_2PCT[smaller + 1] < load
-    # The recursion agrees with the printed rows (three decimals) and, with margin on both sides
-    # of the target (so that simulation noise cannot tip a year), with the answer.
+    # Erlang B by its recursion (sdmnet.analysis.analytic.erlang_b, itself checked against printed
+    # tables in tests/test_analytic.py) agrees with the printed rows (three decimals) and, with
+    # margin on both sides of the target (so that simulation noise cannot tip a year), with the
+    # answer.
     for servers, printed in TABLE_2PCT.items():
         low, high = printed - 0.0015, printed + 0.0015
-        assert _erlang_b_recursion(servers, low) <= 0.02 <= _erlang_b_recursion(servers, high), servers
+        assert erlang_b(servers, low) <= 0.02 <= erlang_b(servers, high), servers
     for pairs, load in zip(expected_pairs, loads):
-        assert _erlang_b_recursion(CHANNELS * pairs, load) < 0.02 / 2
-        assert _erlang_b_recursion(CHANNELS * (pairs - 1), load) > 0.02 * 2
+        assert erlang_b(CHANNELS * pairs, load) < 0.02 / 2
+        assert erlang_b(CHANNELS * (pairs - 1), load) > 0.02 * 2
 
     arch = Architecture("ind", "independent")
     sc = scenario(single_cable(fiber_type(cores=1, channels=CHANNELS)), [arch], loads=(loads[0],),

@@ -20,6 +20,7 @@ from .equipment.costs import unit_prices
 from .equipment.resources import InstalledResources, installed_resources, module_figures
 from .errors import InputError
 from .inputs.model import Scenario
+from .output.headline import load_point_text, plan_text
 from .output.manifest import ensure_out_dir, run_manifest, software_versions
 from .output.tables import (
     add_module_columns,
@@ -47,6 +48,9 @@ __all__ = [
     "demo",
     "starter",
     "summarize_records",
+    "DemoResult",
+    "plan_text",
+    "load_point_text",
     "software_versions",
     "ensure_out_dir",
 ]
@@ -243,7 +247,17 @@ def starter(folder: Path | str) -> list[Path]:
     return copy_starter(folder)
 
 
-def demo(scenario: Scenario, out_dir: Path | str, *, jobs: int = 2, progress: bool = True) -> SimulationResult:
+@dataclass
+class DemoResult:
+    """What :func:`demo` produced: the simulation and, with a ``[plan]``, the plan's totals."""
+
+    out_dir: Path
+    simulation: SimulationResult
+    plan_totals: pd.DataFrame | None
+    wall_time_s: float
+
+
+def demo(scenario: Scenario, out_dir: Path | str, *, jobs: int = 2, progress: bool = True) -> DemoResult:
     """The bundled scenario end to end into one folder: paths, estimate, simulation,
     plan, forecast and the report."""
     started = time.perf_counter()
@@ -252,12 +266,12 @@ def demo(scenario: Scenario, out_dir: Path | str, *, jobs: int = 2, progress: bo
     estimate(scenario, out)
     # The report (and every figure in it) is written once, at the end.
     result = simulate(scenario, out, jobs=jobs, progress=progress, figures=False)
+    totals = None
     if scenario.plan is not None:
-        plan(scenario, out, jobs=jobs, progress=progress, figures=False)
+        totals = plan(scenario, out, jobs=jobs, progress=progress, figures=False).totals
     if scenario.forecast is not None:
         forecast(scenario, out, jobs=jobs, progress=progress, figures=False)
     wall = time.perf_counter() - started
     write_json(run_manifest(scenario, "demo", wall, jobs=jobs), out / "run.json")
     report(out)
-    result.wall_time_s = wall
-    return result
+    return DemoResult(out, result, totals, wall)

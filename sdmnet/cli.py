@@ -91,7 +91,7 @@ def cmd_simulate(args: argparse.Namespace) -> int:
         resume=args.resume,
         progress=not args.quiet,
     )
-    _print_summary(result.summary)
+    print(api.load_point_text(result.summary))
     _warn_unrouted(result.summary)
     _warn_unsteady(result.summary)
     print(f"results in {result.out_dir}/ ({result.wall_time_s:.1f} s), report.html")
@@ -158,6 +158,7 @@ def cmd_plan_or_forecast(args: argparse.Namespace) -> int:
 
         result = api.plan(scenario, out, jobs=args.jobs, progress=not args.quiet, cable_cuts=args.cuts)
         print("\n".join(summary_lines(result.plans)))
+        print(api.plan_text(result.totals))
     else:
         api.forecast(scenario, out, jobs=args.jobs, progress=not args.quiet)
     print(f"results in {out}/ (report.html)")
@@ -170,12 +171,6 @@ def cmd_report(args: argparse.Namespace) -> int:
     path = api.report(Path(args.folder), Path(args.out) if args.out else None)
     print(f"report in {path}")
     return EXIT_OK
-
-
-def _print_summary(summary) -> None:
-    cols = ["architecture", "load_erlang", "blocking", "blocking_ci_low", "blocking_ci_high",
-            "transceivers_peak", "switch_ports", "fiber_pairs"]
-    print(summary[cols].to_string(index=False, float_format=lambda x: f"{x:.4g}"))
 
 
 def cmd_demo(args: argparse.Namespace) -> int:
@@ -192,7 +187,10 @@ def cmd_demo(args: argparse.Namespace) -> int:
     scenario = load_scenario(path)
     out = Path(args.out) if args.out else Path("results") / "demo"
     result = api.demo(scenario, out, jobs=args.jobs, progress=not args.quiet)
-    _print_summary(result.summary)
+    if result.plan_totals is not None:
+        print(api.plan_text(result.plan_totals))
+    else:
+        print(api.load_point_text(result.simulation.summary))
     print(f"demo results in {out}/ ({result.wall_time_s:.1f} s): open {out / 'report.html'}")
     return EXIT_OK
 

@@ -2,7 +2,7 @@
 
 Prices are relative: one lane of the ``[transceiver]`` class costs 1.  A scenario overrides any
 item in ``[costs]`` (relative units) and ``[power]`` (watts per item); the loader refuses names
-not listed here.  Every default names where it comes from (docs/model.md, section 7):
+not listed here.  Every default names where it comes from (docs/model.md, section 6):
 
 - [R13] F. Rambach et al., "A multilayer cost model for metro/core networks", J. Opt. Commun.
   Netw. 5(3), 2013: relative prices of transponders, WSS-based ROADM degrees and amplifiers,

@@ -1,7 +1,7 @@
 """What one architecture's equipment costs and draws: counts per catalogue item, unit prices
 and watts, and the rows of cost.csv.
 
-Counts (docs/model.md, section 7): installed lanes (:mod:`sdmnet.equipment.installed`), of which
+Counts (docs/model.md, section 6): installed lanes (:mod:`sdmnet.equipment.installed`), of which
 those of MIMO modules also pay ``mimo_premium``; line-side switch ports by kind, fan-in/fan-out
 devices, amplifiers, fiber-pair-km and cable-km (:mod:`sdmnet.equipment.resources`); one add/drop
 port per installed module (assumption: every module's line side plugs into its own add/drop port

@@ -11,13 +11,14 @@ from pathlib import Path
 
 import pandas as pd
 
+from ..equipment.costs import unit_prices
+from ..equipment.resources import module_figures
 from ..inputs.model import Scenario
 from ..network.architectures import cable_geometries
 from ..output.manifest import ensure_out_dir, run_manifest
 from ..output.tables import write_json, write_table
 from ..sim.progress import ProgressBar
 from .candidates import DEFAULT_MAX_CANDIDATES, REPLICATION_CAP_FACTOR
-from .costing import plan_prices
 from .cuts import cut_rows
 from .first_guess import dimensioning_load, plan_spec
 from .search import ArchitecturePlan, plan_architecture
@@ -113,8 +114,9 @@ def run_plan(
         ap = plan_architecture(scenario, arch, jobs=jobs, log=bar.step, with_cuts=with_cuts)
         plans.append(ap)
         plan_part += plan_rows(scenario, ap)
-        prices = plan_prices(scenario, arch)
-        totals_part.append(totals_row(scenario, ap, prices))
+        module = module_figures(scenario, arch)
+        prices = unit_prices(scenario, module)
+        totals_part.append(totals_row(scenario, ap, prices, module))
         cost_part += plan_cost_rows(scenario, ap, prices)
         site_part += site_rows(scenario, ap)
         cand_part += candidate_rows(ap)

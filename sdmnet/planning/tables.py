@@ -8,6 +8,7 @@ from __future__ import annotations
 import math
 
 from ..equipment.costs import Price, carried_tbps, cost_and_power, cost_rows, equipment_counts, site_switch_ports
+from ..equipment.resources import ModuleFigures, module_figures
 from ..inputs.model import Scenario
 from .costing import plan_prices
 from .search import ArchitecturePlan
@@ -45,11 +46,18 @@ def plan_rows(scenario: Scenario, plan: ArchitecturePlan) -> list[dict]:
     return rows
 
 
-def totals_row(scenario: Scenario, plan: ArchitecturePlan, prices: dict[str, Price] | None = None) -> dict:
+def totals_row(
+    scenario: Scenario,
+    plan: ArchitecturePlan,
+    prices: dict[str, Price] | None = None,
+    module: ModuleFigures | None = None,
+) -> dict:
     """One row of plan_totals.csv: network totals of one architecture's plan, with its cost and watts.
 
-    ``prices`` default to :func:`plan_prices`.
+    ``prices`` default to :func:`plan_prices`; ``module`` (the transceiver module beside the lane
+    counts: its lanes and MIMO size) to :func:`sdmnet.equipment.resources.module_figures`.
     """
+    module = module if module is not None else module_figures(scenario, plan.architecture)
     point = plan.evaluation.point
     res = plan.resources
     installed = plan.installed
@@ -84,6 +92,8 @@ def totals_row(scenario: Scenario, plan: ArchitecturePlan, prices: dict[str, Pri
         "fiber_pair_km": res.fiber_pair_km,
         "transceivers_installed": installed.modules,
         "transceiver_mimo_lanes_installed": installed.mimo_lanes,
+        "module_lanes": module.lanes,
+        "mimo_size": module.mimo_size,
         "transceivers_peak": point.transceivers_peak,
         "transceiver_lanes_peak": point.lanes_peak,
         "switch_ports": plan.switch_ports,

@@ -31,11 +31,11 @@ def _bar_labels(ax: plt.Axes, bars, fmt: str = "{:,.0f}") -> None:
 
 @with_look
 def resources_figure(summary: pd.DataFrame, path: Path) -> Path:
-    """Transceiver modules (peak and mean), switch ports and fiber pairs per architecture.
+    """Transceiver lanes (installed and mean in use), switch ports and fiber pairs per architecture.
 
     Grouped bars at the highest offered load point (resources that grow with load, the
-    transceivers, are largest there; switch ports and fiber pairs are installed equipment and do
-    not depend on load).  The title names the load.
+    transceivers, are largest there).  Folders written before installed counts existed show
+    modules (peak and mean in use) instead.  The title names the load.
     """
     top, when = _at_highest_load(summary)
     names = [str(a) for a in top["architecture"]]
@@ -43,30 +43,35 @@ def resources_figure(summary: pd.DataFrame, path: Path) -> Path:
     fig, axes = plt.subplots(1, 3, figsize=(11.0, 3.9), gridspec_kw={"width_ratios": [1.5, 1, 1]})
     ax = axes[0]
     width = 0.38
-    peak = ax.bar(
+    if "transceiver_lanes_installed" in top.columns:
+        first, second = ("transceiver_lanes_installed", "installed"), ("transceiver_lanes_mean", "mean in use")
+        unit = "lanes"
+    else:
+        first, second = ("transceivers_peak", "peak"), ("transceivers_mean", "mean")
+        unit = "modules in use"
+    solid = ax.bar(
         x - width / 2,
-        top["transceivers_peak"].astype(float),
+        top[first[0]].astype(float),
         width,
         color="#3b3b3b",
         edgecolor=INK,
         linewidth=0.6,
-        label="peak",
+        label=first[1],
     )
-    has_mean = "transceivers_mean" in top.columns
-    if has_mean:
-        mean = ax.bar(
+    if second[0] in top.columns:
+        hatched = ax.bar(
             x + width / 2,
-            top["transceivers_mean"].astype(float),
+            top[second[0]].astype(float),
             width,
             color="white",
             hatch="////",
             edgecolor=INK,
             linewidth=0.6,
-            label="mean",
+            label=second[1],
         )
-        _bar_labels(ax, mean)
-    _bar_labels(ax, peak)
-    ax.set_ylabel("transceiver modules in use (modules)")
+        _bar_labels(ax, hatched)
+    _bar_labels(ax, solid)
+    ax.set_ylabel(f"transceiver {unit} ({unit.split()[0]})")
     ax.set_title("Transceivers")
     ax.legend(loc="upper right", ncols=2)
     for ax, column, label, title in (
@@ -119,16 +124,20 @@ def forecast_figure(totals: pd.DataFrame, path: Path, band: pd.DataFrame | None 
     ----------
     totals : DataFrame
         One row per (year, architecture): ``year, architecture`` and any of ``fiber_pairs``,
-        ``transceivers_peak``, ``switch_ports``, ``cost``, ``power_w`` (network totals).
+        ``transceiver_lanes_installed`` (else ``transceivers_peak``), ``switch_ports``, ``cost``,
+        ``power_w`` (network totals).
     path : path
         PNG to write.
     band : DataFrame, optional
         ``forecast_band.csv``: rows of ``case`` low/base/high per (year, architecture); a panel
         whose column it holds is drawn with the low-high range shaded around the line.
     """
+    lanes = "transceiver_lanes_installed" in totals.columns
     wanted = [
         ("fiber_pairs", "fiber pairs installed (pairs)", "Fiber pairs"),
-        ("transceivers_peak", "peak transceiver modules (modules)", "Transceivers"),
+        ("transceiver_lanes_installed", "transceiver lanes installed (lanes)", "Transceivers")
+        if lanes
+        else ("transceivers_peak", "peak transceiver modules (modules)", "Transceivers"),
         ("switch_ports", "switch ports installed (ports)", "Switch ports"),
         ("cost", "total cost (relative units)", "Cost"),
         ("power_w", "power drawn (W)", "Power"),

@@ -24,6 +24,7 @@ RESULT_TABLES = (
     "paths",
     "plan",
     "plan_totals",
+    "cost",
     "forecast",
     "forecast_totals",
     "forecast_band",

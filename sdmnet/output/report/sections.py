@@ -16,14 +16,25 @@ import pandas as pd
 
 from ...inputs.model import Scenario
 from .. import figures
+from ..headline import load_point_headline, plan_comparison, plan_headline
 from ..tables import SUMMARY_COLUMNS
 from .blocks import Table, figure, number_text, percent_text, skip_note, table, value
 from .results import RESULT_TABLES, ResultFolder, forecast_totals, read_csv
 
 __all__ = ["Section", "SECTIONS", "build_sections"]
 
-# summary.csv's contract columns (docs/model.md, section 5: up to fiber_km) and the mean transceivers.
-SUMMARY_SHOWN = SUMMARY_COLUMNS[: SUMMARY_COLUMNS.index("fiber_km") + 1] + ["transceivers_mean", "steady_state"]
+# summary.csv's contract columns (docs/model.md, section 5: up to fiber_km), then the installed
+# transceivers (lanes first), carried traffic and cost (section 6), the mean transceivers and
+# the steady-state test.
+SUMMARY_SHOWN = SUMMARY_COLUMNS[: SUMMARY_COLUMNS.index("fiber_km") + 1] + [
+    "transceiver_lanes_installed",
+    "transceivers_installed",
+    "carried_erlang",
+    "cost",
+    "power_w",
+    "transceivers_mean",
+    "steady_state",
+]
 
 # run.json's scenario is the Scenario dataclass written with sorted keys: show it in field order.
 _SCENARIO_ORDER = tuple(f.name for f in fields(Scenario))
@@ -58,7 +69,8 @@ def _loads_text(frame: pd.DataFrame) -> str:
 
 
 def _findings(summary: pd.DataFrame) -> dict[str, Any] | None:
-    """The lowest and highest blocking at the highest load, and who needs the least equipment."""
+    """The lowest and highest blocking at the highest load, and installed lanes among the
+    architectures whose blocking intervals overlap there."""
     if skip_note("", summary, _BLOCKING_COLUMNS):
         return None
     top = _highest_load_rows(summary)
@@ -68,15 +80,6 @@ def _findings(summary: pd.DataFrame) -> dict[str, Any] | None:
     if len(best_rows) == 1 and {"blocking_ci_low", "blocking_ci_high"} <= set(top.columns):
         row = best_rows.iloc[0]
         interval = (percent_text(row["blocking_ci_low"]), percent_text(row["blocking_ci_high"]))
-    fewest = []
-    for column, what in (
-        ("transceivers_peak", "the fewest transceiver modules at peak"),
-        ("switch_ports", "the fewest switch ports"),
-    ):
-        if column in top.columns:
-            low = top[column].min()
-            names = [str(a) for a in top.loc[top[column] == low, "architecture"]]
-            fewest.append({"names": names, "what": what, "value": number_text(float(low))})
     return {
         "at": _loads_text(top) if top["load_erlang"].nunique() == 1 else None,
         "best": percent_text(best),
@@ -84,7 +87,8 @@ def _findings(summary: pd.DataFrame) -> dict[str, Any] | None:
         "winners": [str(a) for a in best_rows["architecture"]],
         "worst": percent_text(worst) if worst > best else None,
         "losers": [str(a) for a in top.loc[top["blocking"] == worst, "architecture"]],
-        "fewest": fewest,
+        # Equipment is ranked only where blocking is alike (output/headline.py).
+        "alike": load_point_headline(summary),
     }
 
 
@@ -94,6 +98,30 @@ def _unsteady(summary: pd.DataFrame) -> list[str]:
         return []
     rows = summary[summary["steady_state"].astype(str) == "no"]
     return [f"{a} at {number_text(float(x))} Erlang" for a, x in zip(rows["architecture"], rows["load_erlang"])]
+
+
+def comparison(res: ResultFolder) -> Section | None:
+    """The architectures at their plan for the target blocking: cost, lanes, ports, fibers, watts."""
+    totals = res.table("plan_totals")
+    if totals is None or "cost" not in totals.columns:
+        return None
+    costs = res.table("cost")
+    breakdown = None
+    if costs is not None and not skip_note("", costs, ["architecture", "item", "cost"]):
+        pivot = costs.pivot_table(index="item", columns="architecture", values="cost", aggfunc="sum", sort=False)
+        pivot = pivot.reset_index()
+        pivot.columns.name = None
+        breakdown = table(pivot, caption="Relative cost per item (rows) and architecture (columns), from cost.csv")
+    return Section(
+        "comparison",
+        "At equal blocking",
+        {
+            "lines": plan_headline(totals),
+            "table": table(plan_comparison(totals), caption="Each architecture at its plan (plan_totals.csv)"),
+            "breakdown": breakdown,
+            "costs": None if costs is None else table(costs, caption="Counts, prices and watts per item (cost.csv)"),
+        },
+    )
 
 
 def simulation(res: ResultFolder) -> Section | None:
@@ -410,6 +438,7 @@ def run_record(res: ResultFolder) -> Section | None:
 
 # The page's order; "Other tables" comes after the results, before the inputs and the run record.
 SECTIONS: tuple[Callable[[ResultFolder], Section | None], ...] = (
+    comparison,
     simulation,
     resources,
     network,

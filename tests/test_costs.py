@@ -24,6 +24,7 @@ def _hand_built():
         fiber_pair_km=20.0,
         cable_km=10.0,
         fan_in_fan_out=8,
+        multicore_add_drop=False,
         amplifiers=14,
         amplifier_item="amplifier_core",
     )
@@ -39,6 +40,10 @@ def test_counts_come_from_the_installed_equipment():
     assert counts["wss_port_group"] == counts["fiber_xc_port"] == 0
     assert (counts["fan_in_fan_out"], counts["amplifier_core"], counts["amplifier_multicore"]) == (8, 14, 0)
     assert (counts["fiber_pair_km"], counts["cable_km"], counts["regenerator_lane"]) == (20.0, 10.0, 0)
+    # Multicore add/drop ports: a fan-in/fan-out device for each (one per installed module).
+    resources, installed = _hand_built()
+    multicore = equipment_counts(replace(resources, multicore_add_drop=True), installed)
+    assert multicore["fan_in_fan_out"] == 8 + 8
 
 
 def test_cost_rows_are_count_times_unit_price_and_the_total_adds_up():

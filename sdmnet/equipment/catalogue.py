@@ -93,7 +93,8 @@ ITEMS: tuple[Item, ...] = (
         "assumption: about half a line-side WSS port [VH12]",
     ),
     Item(
-        "fan_in_fan_out", "fan-in/fan-out device at a fiber end whose cores are switched apart", 0.2, 0.0,
+        "fan_in_fan_out", "fan-in/fan-out device (around per-core amplifiers, at fiber ends whose cores are "
+        "switched apart, at multicore add/drop ports)", 0.2, 0.0,
         "assumption: [K12] treats fan-in/fan-out as a per-fiber-end cost to amortize (no figure "
         "recalled)",
         "passive device",

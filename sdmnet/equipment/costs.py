@@ -5,7 +5,8 @@ Counts (docs/model.md, section 6): installed lanes (:mod:`sdmnet.equipment.insta
 those of MIMO modules also pay ``mimo_premium``; line-side switch ports by kind, fan-in/fan-out
 devices, amplifiers, fiber-pair-km and cable-km (:mod:`sdmnet.equipment.resources`); one add/drop
 port per installed module (assumption: every module's line side plugs into its own add/drop port
-of the site's switch); regenerator lanes 0 (no regeneration is planned yet).
+of the site's switch), with a fan-in/fan-out device each where those ports are multicore;
+regenerator lanes 0 (no regeneration is planned yet).
 
 Prices: the catalogue's defaults (:mod:`sdmnet.equipment.catalogue`), then an older scenario's
 ``[plan.unit_costs]`` (``fiber_pair_km``, ``transceiver_lane``, and ``switch_port`` for every
@@ -52,7 +53,7 @@ def equipment_counts(resources: InstalledResources, installed: InstalledTranscei
     for kind, n in resources.line_ports.items():
         counts[kind] += n
     counts["add_drop_port"] = installed.modules
-    counts["fan_in_fan_out"] = resources.fan_in_fan_out
+    counts["fan_in_fan_out"] = resources.fan_in_fan_out + (installed.modules if resources.multicore_add_drop else 0)
     counts[resources.amplifier_item] = resources.amplifiers
     counts["fiber_pair_km"] = resources.fiber_pair_km
     counts["cable_km"] = resources.cable_km

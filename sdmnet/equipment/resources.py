@@ -7,10 +7,16 @@ unit: a per-core wavelength-selective port for single-core units, a per-group po
 superchannels, a fiber cross-connect port under fiber switching.  Add/drop ports depend on the
 traffic and are counted with the installed transceivers (:mod:`sdmnet.equipment.costs`).
 
-Fan-in/fan-out devices: one at each end of every fiber whose cores are switched apart (more than
-one unit position across the cores), since the switch needs each core (group) on its own port.
+Fan-in/fan-out devices sit where the physical layer puts them (docs/physics.md) on multicore
+fiber: with ``[line] amplifier = "per-core"``, a fan-out before and a fan-in after every
+amplifier (2 per span and strand; the last amplifier is the receiving site's preamplifier, so
+these also give the switch its cores one by one); with ``"multicore"`` amplifiers, one at each
+end of every strand whose cores are switched apart (more than one unit position across the
+cores).  Where a switch's add/drop ports are multicore (units of several cores), each add/drop
+port has one too (counted with the installed modules, :mod:`sdmnet.equipment.costs`), since
+transceivers have single-core pigtails.
 Amplifiers: ``ceil(length / span_km)`` per fiber strand of a cable (:func:`sdmnet.optics.line.span_count`),
-one per core with ``[line] amplifier = "per-core"``, one per fiber with ``"multicore"``.
+one per core with ``"per-core"``, one per fiber with ``"multicore"``.
 Fiber-km counts strands: 2 x fiber pairs x length; fiber-pair-km and cable-km count pairs and cables.
 """
 
@@ -45,7 +51,10 @@ class InstalledResources:
     cable_km : float
         Sum of cable lengths.
     fan_in_fan_out : int
-        Fan-in/fan-out devices.
+        Fan-in/fan-out devices on the line side (around amplifiers, or at fiber ends).
+    multicore_add_drop : bool
+        The add/drop ports are multicore (units of several cores of multicore fiber), so each
+        needs a fan-in/fan-out device.
     amplifiers : int
         Amplifiers, of the kind ``amplifier_item`` (``amplifier_core`` or ``amplifier_multicore``).
     """
@@ -57,6 +66,7 @@ class InstalledResources:
     fiber_pair_km: float
     cable_km: float
     fan_in_fan_out: int
+    multicore_add_drop: bool
     amplifiers: int
     amplifier_item: str
 
@@ -87,6 +97,7 @@ def installed_resources(scenario: Scenario, arch: Architecture) -> InstalledReso
     site_ports = {s.id: 0 for s in topo.sites}
     by_item: dict[str, int] = {}
     fifo = amplifiers = 0
+    multicore_add_drop = False
     for cable, geo in zip(topo.cables, cable_geometries(scenario, arch)):
         per_end = cable.fiber_pairs * geo.ports_per_fiber
         site_ports[cable.a] += per_end
@@ -94,10 +105,15 @@ def installed_resources(scenario: Scenario, arch: Architecture) -> InstalledReso
         kind = line_port_item(geo)
         by_item[kind] = by_item.get(kind, 0) + 2 * per_end
         strands = 2 * cable.fiber_pairs
-        if geo.groups_per_fiber > 1:
-            fifo += 2 * strands  # both ends of every strand
+        spans = span_count(cable.length_km, line.span_km)
         cores = topo.fiber_types[cable.fiber_type].cores
-        amplifiers += span_count(cable.length_km, line.span_km) * strands * (cores if per_core else 1)
+        amplifiers += spans * strands * (cores if per_core else 1)
+        if cores > 1:
+            if per_core:
+                fifo += 2 * spans * strands  # a fan-out before and a fan-in after every amplifier
+            elif geo.groups_per_fiber > 1:
+                fifo += 2 * strands  # both ends of every strand
+            multicore_add_drop = multicore_add_drop or geo.cores_per_unit > 1
     return InstalledResources(
         site_line_ports=site_ports,
         line_ports=by_item,
@@ -106,6 +122,7 @@ def installed_resources(scenario: Scenario, arch: Architecture) -> InstalledReso
         fiber_pair_km=sum(c.fiber_pairs * c.length_km for c in topo.cables),
         cable_km=sum(c.length_km for c in topo.cables),
         fan_in_fan_out=fifo,
+        multicore_add_drop=multicore_add_drop,
         amplifiers=amplifiers,
         amplifier_item="amplifier_core" if per_core else "amplifier_multicore",
     )

@@ -33,6 +33,7 @@ __all__ = [
     "unit_prices",
     "carried_tbps",
     "cost_and_power",
+    "equipment_columns",
     "cost_rows",
 ]
 
@@ -102,6 +103,34 @@ def cost_and_power(counts: Mapping[str, float], prices: Mapping[str, Price]) -> 
     cost = sum(n * prices[name].cost for name, n in counts.items())
     power = sum(n * prices[name].power_w for name, n in counts.items())
     return float(cost), float(power)
+
+
+def equipment_columns(
+    scenario: Scenario,
+    point: PointSummary,
+    resources: InstalledResources,
+    installed: InstalledTransceivers,
+    prices: Mapping[str, Price] | None,
+) -> dict[str, float]:
+    """The equipment columns summary.csv and plan_totals.csv share: installed transceivers,
+    switch ports (line side plus add/drop), cost and watts (NaN without ``prices``), carried
+    Tb/s and cost per carried Tb/s."""
+    cost = power = math.nan
+    if prices is not None:
+        cost, power = cost_and_power(equipment_counts(resources, installed), prices)
+    carried = carried_tbps(scenario, point)
+    return {
+        "transceiver_lanes_installed": installed.lanes,
+        "transceivers_installed": installed.modules,
+        "transceiver_mimo_lanes_installed": installed.mimo_lanes,
+        "switch_ports": resources.line_port_count + installed.modules,
+        "switch_ports_line": resources.line_port_count,
+        "switch_ports_add_drop": installed.modules,
+        "cost": cost,
+        "power_w": power,
+        "carried_tbps": carried,
+        "cost_per_carried_tbps": cost / carried if carried > 0 else math.nan,
+    }
 
 
 def cost_rows(

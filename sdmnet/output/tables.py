@@ -8,7 +8,6 @@ numbers always give the same bytes; Parquet beside it when pyarrow is installed)
 from __future__ import annotations
 
 import json
-import math
 import os
 import tempfile
 from collections.abc import Sequence
@@ -16,7 +15,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from ..equipment.costs import Price, carried_tbps, cost_and_power, equipment_counts, site_switch_ports
+from ..equipment.costs import Price, equipment_columns, site_switch_ports
 from ..equipment.installed import installed_transceivers
 from ..equipment.resources import InstalledResources
 from ..inputs.model import Scenario
@@ -101,10 +100,7 @@ def summary_table(
         res = resources[arch.name]
         unit = cable_geometries(scenario, arch)[0]
         installed = installed_transceivers(p, scenario.transceiver.overflow)
-        cost = power = math.nan
-        carried = carried_tbps(scenario, p)
-        if prices is not None:
-            cost, power = cost_and_power(equipment_counts(res, installed), prices[arch.name])
+        equipment = equipment_columns(scenario, p, res, installed, None if prices is None else prices[arch.name])
         rows.append(
             {
                 "architecture": arch.name,
@@ -118,19 +114,10 @@ def summary_table(
                 "bandwidth_blocking": p.bandwidth_blocking.mean,
                 "transceivers_peak": p.transceivers_peak,
                 "transceiver_lanes_peak": p.lanes_peak,
-                "switch_ports": res.line_port_count + installed.modules,
                 "fiber_pairs": res.fiber_pairs,
                 "fiber_km": res.fiber_km,
-                "transceivers_installed": installed.modules,
-                "transceiver_lanes_installed": installed.lanes,
+                **equipment,
                 "carried_erlang": p.load_erlang * (1.0 - p.blocking.mean),
-                "transceiver_mimo_lanes_installed": installed.mimo_lanes,
-                "switch_ports_line": res.line_port_count,
-                "switch_ports_add_drop": installed.modules,
-                "cost": cost,
-                "power_w": power,
-                "carried_tbps": carried,
-                "cost_per_carried_tbps": cost / carried if carried > 0 else math.nan,
                 "bandwidth_blocking_ci_low": p.bandwidth_blocking.low,
                 "bandwidth_blocking_ci_high": p.bandwidth_blocking.high,
                 "transceivers_mean": p.transceivers_mean,

@@ -12,9 +12,9 @@ years).  Routes and physics are found once per architecture and lane rate, not p
 With ``growth_band = [low, high]`` the low and high growth rates are planned the same way
 beside the base case; ``forecast_band.csv`` holds the three cases' yearly cost, watts and fibers.
 
-``transceivers_peak``, ``switch_ports`` and ``transceiver_lanes_installed`` in forecast.csv are network totals of the
-architecture, repeated on each cable row (the engine counts transceivers per site, not per
-cable); ``forecast_totals.csv`` holds them once per year and architecture.
+``transceivers_peak``, ``switch_ports`` and ``transceiver_lanes_installed`` in forecast.csv are
+network totals of the architecture, repeated on each cable row (the engine counts transceivers
+per site, not per cable); ``forecast_totals.csv`` holds them once per year and architecture.
 """
 
 from __future__ import annotations

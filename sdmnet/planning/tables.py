@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import math
 
-from ..equipment.costs import Price, carried_tbps, cost_and_power, cost_rows, equipment_counts, site_switch_ports
+from ..equipment.costs import Price, carried_tbps, cost_rows, equipment_columns, equipment_counts, site_switch_ports
 from ..equipment.resources import ModuleFigures, module_figures
 from ..inputs.model import Scenario
 from .costing import plan_prices
@@ -62,10 +62,9 @@ def totals_row(
     res = plan.resources
     installed = plan.installed
     worst_name, worst_blocking = plan.worst_pair
-    cost, power = cost_and_power(
-        equipment_counts(res, installed), prices if prices is not None else plan_prices(scenario, plan.architecture)
-    )
-    carried = carried_tbps(scenario, point)
+    prices = prices if prices is not None else plan_prices(scenario, plan.architecture)
+    # The columns shared with summary.csv, placed in the contract's order below.
+    equipment = equipment_columns(scenario, point, res, installed, prices)
     worst_cut = max(plan.cuts, key=lambda o: o.evaluation.point.blocking.mean, default=None)
     return {
         "architecture": plan.architecture.name,
@@ -74,10 +73,10 @@ def totals_row(
         "blocking_ci_low": point.blocking.low,
         "blocking_ci_high": point.blocking.high,
         "worst_pair_blocking": worst_blocking,
-        "cost": cost,
-        "power_w": power,
+        "cost": equipment.pop("cost"),
+        "power_w": equipment.pop("power_w"),
         "fiber_pairs": res.fiber_pairs,
-        "transceiver_lanes_installed": installed.lanes,
+        "transceiver_lanes_installed": equipment.pop("transceiver_lanes_installed"),
         "confidence": plan.confidence,
         "replications": point.replications,
         "verdict": plan.verdict,
@@ -90,17 +89,11 @@ def totals_row(
         "fiber_strands": res.fiber_strands,
         "fiber_km": res.fiber_km,
         "fiber_pair_km": res.fiber_pair_km,
-        "transceivers_installed": installed.modules,
-        "transceiver_mimo_lanes_installed": installed.mimo_lanes,
         "module_lanes": module.lanes,
         "mimo_size": module.mimo_size,
         "transceivers_peak": point.transceivers_peak,
         "transceiver_lanes_peak": point.lanes_peak,
-        "switch_ports": plan.switch_ports,
-        "switch_ports_line": res.line_port_count,
-        "switch_ports_add_drop": installed.modules,
-        "carried_tbps": carried,
-        "cost_per_carried_tbps": cost / carried if carried > 0 else math.nan,
+        **equipment,
         "bandwidth_blocking": point.bandwidth_blocking.mean,
         "locally_minimal": plan.locally_minimal,
         "candidates": plan.candidates,

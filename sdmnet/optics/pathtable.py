@@ -1,7 +1,7 @@
 """Candidate paths with their physics: the ``paths`` table and the routes the engine may use.
 
 For every architecture and datacenter pair, the k shortest routes
-(:func:`sdmnet.network.routing.k_shortest_routes` on the architecture's view of the topology) are
+(:func:`sdmnet.network.routing.route_table` on the architecture's view of the topology) are
 evaluated with :func:`sdmnet.optics.physics.evaluate_path` for the architecture's unit on each cable's
 fiber type, the scenario's amplified line and its transceiver classes.  A route whose cables give
 different unit sizes, or whose fiber type does not allow the architecture, is infeasible with
@@ -19,7 +19,7 @@ import pandas as pd
 
 from ..inputs.model import Architecture, LineSpec, Scenario, Topology, TransceiverClass, TransceiverSpec
 from ..network.architectures import unit_geometry, why_not_allowed
-from ..network.routing import Route, datacenter_pairs, k_shortest_routes
+from ..network.routing import Route, route_table
 from .classes import scenario_classes
 from .physics import PathPhysics, evaluate_path, mimo_group
 
@@ -123,8 +123,7 @@ def evaluated_routes(
     """Per datacenter pair of ``arch``'s topology, its k shortest routes with their physics."""
     topology = scenario.topology_for(arch)
     classes = scenario_classes(scenario)
-    for a, b in datacenter_pairs(topology):
-        routes = k_shortest_routes(topology, a, b, scenario.run.k_paths)
+    for (a, b), routes in route_table(topology, scenario.run.k_paths).items():
         found = [(r, evaluate_route(topology, r, arch, scenario.transceiver, scenario.line, classes)) for r in routes]
         yield a, b, found
 

@@ -6,7 +6,7 @@ those of MIMO modules also pay ``mimo_premium``; line-side switch ports by kind,
 devices, amplifiers, fiber-pair-km and cable-km (:mod:`sdmnet.equipment.resources`); one add/drop
 port per installed module (assumption: every module's line side plugs into its own add/drop port
 of the site's switch), with a fan-in/fan-out device each where those ports are multicore;
-regenerator lanes 0 (no regeneration is planned yet).
+regenerator lanes 0 here: a plan adds those it installs (:func:`sdmnet.planning.tables.plan_counts`).
 
 Prices: the catalogue's defaults (:mod:`sdmnet.equipment.catalogue`), then an older scenario's
 ``[plan.unit_costs]`` (``fiber_pair_km``, ``transceiver_lane``, and ``switch_port`` for every

@@ -467,6 +467,8 @@ class PlanSpec:
         or below ``cut_target``.
     cut_target : float or None
         Blocking allowed after a cut (None with ``survive = "cable-cut"``: the target).
+    regeneration : bool
+        Serve pairs that no transceiver class reaches through regenerators (plan and forecast).
     """
 
     target_blocking: float = 0.01
@@ -477,6 +479,7 @@ class PlanSpec:
     pair_target: float | None = None
     survive: Survive = "none"
     cut_target: float | None = None
+    regeneration: bool = True
 
 
 @dataclass(frozen=True)

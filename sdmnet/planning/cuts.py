@@ -15,7 +15,7 @@ from ..inputs.model import Architecture, Scenario
 from ..network.routing import Route
 from ..network.traffic import pair_weights
 from ..optics.pathtable import feasible_routes
-from ..sim.engine import EngineSetup, prepare
+from ..sim.engine import EngineSetup, RouteFinder, prepare
 from .acceptance import Targets
 from .candidates import Evaluation, Evaluator
 
@@ -51,23 +51,34 @@ def single_cuts(scenario: Scenario) -> list[Cut]:
     return cuts
 
 
-def _routes_avoiding(cut: Cut):
-    """A route finder: the feasible routes of the topology without the cut cables, with the
+def _routes_avoiding(cut: Cut, finder: RouteFinder):
+    """A route finder: ``finder``'s routes on the topology without the cut cables, with the
     cable indices of the whole topology (so the setup keeps one index per cable)."""
 
-    def finder(scenario: Scenario, arch: Architecture) -> dict[tuple[str, str], list[Route]]:
+    def avoiding(scenario: Scenario, arch: Architecture) -> dict[tuple[str, str], list[Route]]:
         topo = scenario.topology
         kept = [i for i in range(len(topo.cables)) if i not in cut.cables]
         reduced = replace(scenario, topology=replace(topo, cables=tuple(topo.cables[i] for i in kept)))
-        found = feasible_routes(reduced, arch)
-        return {p: [replace(r, cables=tuple(kept[h] for h in r.cables)) for r in rs] for p, rs in found.items()}
+        found = finder(reduced, arch)
+        return {p: [_renumbered(r, kept) for r in rs] for p, rs in found.items()}
 
-    return finder
+    return avoiding
 
 
-def cut_setup(scenario: Scenario, arch: Architecture, cut: Cut) -> EngineSetup:
-    """The engine setup of ``arch`` with ``cut`` in place (its cables stay, unused by any route)."""
-    return prepare(scenario, arch, route_finder=_routes_avoiding(cut))
+def _renumbered(route: Route, kept: list[int]) -> Route:
+    """``route`` with cable indices of the whole topology (its segments too, if regenerated)."""
+    changes: dict = {"cables": tuple(kept[h] for h in route.cables)}
+    if getattr(route, "segments", ()):
+        changes["segments"] = tuple(tuple(kept[h] for h in seg) for seg in route.segments)  # type: ignore[attr-defined]
+    return replace(route, **changes)
+
+
+def cut_setup(scenario: Scenario, arch: Architecture, cut: Cut, finder: RouteFinder | None = None) -> EngineSetup:
+    """The engine setup of ``arch`` with ``cut`` in place (its cables stay, unused by any route).
+
+    ``finder`` gives the routes on the cut topology (default: the transparent feasible routes).
+    """
+    return prepare(scenario, arch, route_finder=_routes_avoiding(cut, finder or feasible_routes))
 
 
 def disconnected_share(scenario: Scenario, arch: Architecture, setup: EngineSetup) -> float:
@@ -103,11 +114,13 @@ class CutJudge:
         return self.disconnected_share > self.evaluator.targets.blocking
 
 
-def cut_judges(scenario: Scenario, arch: Architecture, intact: Evaluator, cut_target: float) -> list[CutJudge]:
+def cut_judges(
+    scenario: Scenario, arch: Architecture, intact: Evaluator, cut_target: float, finder: RouteFinder | None = None
+) -> list[CutJudge]:
     """Every single cut of ``scenario`` prepared once, its evaluator set up like ``intact``."""
     judges = []
     for cut in single_cuts(scenario):
-        setup = cut_setup(scenario, arch, cut)
+        setup = cut_setup(scenario, arch, cut, finder)
         judge = Evaluator(setup, intact.load_erlang, intact.seed, intact.run, Targets(cut_target),
                           confidence=intact.confidence, jobs=intact.jobs, budget=10**9, log=intact.log,
                           label=f"{arch.name} cut {cut.name}")  # fmt: skip

@@ -37,7 +37,7 @@ from ..sim.engine import EngineSetup, prepare
 from ..sim.progress import ProgressBar
 from .candidates import DEFAULT_MAX_CANDIDATES
 from .run import finish_run, start_run
-from .search import ArchitecturePlan, plan_architecture
+from .search import ArchitecturePlan, plan_architecture, route_finder
 from .tables import candidate_rows, totals_row
 
 __all__ = [
@@ -150,7 +150,7 @@ class _Routes:
     def setup(self, scenario: Scenario, arch: Architecture) -> EngineSetup:
         key = (arch.name, scenario.transceiver.lane_gbps)
         if key not in self._found:
-            self._found[key] = feasible_routes(scenario, arch)
+            self._found[key] = (route_finder(scenario) or feasible_routes)(scenario, arch)
         found = self._found[key]
         return prepare(scenario, arch, route_finder=lambda _s, _a: found)
 

@@ -29,7 +29,7 @@ from ..equipment.installed import InstalledTransceivers, installed_transceivers
 from ..equipment.resources import InstalledResources, installed_resources
 from ..inputs.model import Architecture, Scenario
 from ..network.traffic import pair_weights
-from ..sim.engine import EngineSetup, prepare
+from ..sim.engine import EngineSetup, RouteFinder, prepare
 from .acceptance import Targets, worst_pair
 from .candidates import DEFAULT_MAX_CANDIDATES, Evaluation, Evaluator
 from .costing import pair_prices
@@ -43,6 +43,7 @@ from .first_guess import (
     units_per_pair,
 )
 from .ranking import grow_scores, trim_order
+from .regeneration import regenerated_pairs, regenerator_lanes, routes_with_regeneration
 
 __all__ = ["ArchitecturePlan", "plan_targets", "dimension", "plan_architecture"]
 
@@ -95,6 +96,10 @@ class ArchitecturePlan:
         The plan under each single cut (simulated when ``survive = "cable-cut"`` or asked for).
     history : list of Evaluation
         Every simulated candidate of the intact network, in order.
+    regenerated : tuple of str
+        Pairs (``a-b``) served through regenerators.
+    regenerators : dict of str to int
+        Regenerator lanes to install per site (:func:`sdmnet.planning.regeneration.regenerator_lanes`).
     """
 
     architecture: Architecture
@@ -115,6 +120,8 @@ class ArchitecturePlan:
     confidence: float = 0.95
     cuts: list[CutOutcome] = field(default_factory=list)
     history: list[Evaluation] = field(default_factory=list)
+    regenerated: tuple[str, ...] = ()
+    regenerators: dict[str, int] = field(default_factory=dict)
 
     @property
     def pairs_by_cable(self) -> dict[str, int]:
@@ -135,6 +142,12 @@ class ArchitecturePlan:
     def verdict(self) -> str:
         """``met``, ``missed`` or ``undecided`` (at the replication cap) of the intact network."""
         return self.evaluation.verdict
+
+
+def route_finder(scenario: Scenario) -> RouteFinder | None:
+    """Routes a plan uses: transparent ones, and through regenerators for pairs beyond reach
+    (``[plan] regeneration``, default true); None is the engine's transparent default."""
+    return routes_with_regeneration if plan_spec(scenario).regeneration else None
 
 
 def plan_targets(scenario: Scenario) -> Targets:
@@ -339,7 +352,7 @@ def plan_architecture(
     spec = plan_spec(scenario)
     targets = plan_targets(scenario)
     load = dimensioning_load(scenario) if load_erlang is None else float(load_erlang)
-    setup = setup if setup is not None else prepare(scenario, arch)
+    setup = setup if setup is not None else prepare(scenario, arch, route_finder=route_finder(scenario))
     cables = tuple(c.key for c in scenario.topology.cables)
     offered, _hops = cable_offered_units(scenario, arch, load, setup)
     if start is None:
@@ -363,7 +376,7 @@ def plan_architecture(
                 if ev.verdict == "undecided" else "target missed")  # fmt: skip
     if spec.survive == "cable-cut" or with_cuts:
         cut_target = spec.cut_target if spec.cut_target is not None else spec.target_blocking
-        judges = cut_judges(scenario, arch, evaluator, cut_target)
+        judges = cut_judges(scenario, arch, evaluator, cut_target, route_finder(scenario))
         if spec.survive == "cable-cut" and not reason:
             grown, outcomes, cut_note = survive_cuts(judges, ev, evaluator, upper, shape)
             minimal = minimal and grown.fiber_pairs == ev.fiber_pairs
@@ -392,4 +405,6 @@ def plan_architecture(
         confidence=spec.confidence,
         cuts=outcomes,
         history=list(evaluator.history),
+        regenerated=tuple("-".join(setup.pairs[p]) for p in regenerated_pairs(setup, scenario.topology_for(arch))),
+        regenerators=regenerator_lanes(scenario, setup, ev.point, load),
     )

@@ -7,13 +7,28 @@ from __future__ import annotations
 
 import math
 
-from ..equipment.costs import Price, carried_tbps, cost_rows, equipment_columns, equipment_counts, site_switch_ports
+from ..equipment.costs import (
+    Price,
+    carried_tbps,
+    cost_and_power,
+    cost_rows,
+    equipment_columns,
+    equipment_counts,
+    site_switch_ports,
+)
 from ..equipment.resources import ModuleFigures, module_figures
 from ..inputs.model import Scenario
 from .costing import plan_prices
 from .search import ArchitecturePlan
 
-__all__ = ["plan_rows", "totals_row", "plan_cost_rows", "site_rows", "candidate_rows"]
+__all__ = ["plan_counts", "plan_rows", "totals_row", "plan_cost_rows", "site_rows", "candidate_rows"]
+
+
+def plan_counts(plan: ArchitecturePlan) -> dict[str, float]:
+    """Count of every catalogue item of the plan, regenerator lanes included."""
+    counts = equipment_counts(plan.resources, plan.installed)
+    counts["regenerator_lane"] = sum(plan.regenerators.values())
+    return counts
 
 
 def plan_rows(scenario: Scenario, plan: ArchitecturePlan) -> list[dict]:
@@ -63,8 +78,12 @@ def totals_row(
     installed = plan.installed
     worst_name, worst_blocking = plan.worst_pair
     prices = prices if prices is not None else plan_prices(scenario, plan.architecture)
-    # The columns shared with summary.csv, placed in the contract's order below.
+    # The columns shared with summary.csv, placed in the contract's order below; cost and watts
+    # of the plan's own counts (regenerator lanes, lanes per class).
     equipment = equipment_columns(scenario, point, res, installed, prices)
+    equipment["cost"], equipment["power_w"] = cost_and_power(plan_counts(plan), prices)
+    carried = equipment["carried_tbps"]
+    equipment["cost_per_carried_tbps"] = equipment["cost"] / carried if carried > 0 else math.nan
     worst_cut = max(plan.cuts, key=lambda o: o.evaluation.point.blocking.mean, default=None)
     return {
         "architecture": plan.architecture.name,
@@ -83,6 +102,8 @@ def totals_row(
         "worst_pair": worst_name,
         "worst_cut": worst_cut.cut.name if worst_cut is not None else "",
         "worst_cut_blocking": worst_cut.evaluation.point.blocking.mean if worst_cut is not None else math.nan,
+        "regenerated_pairs": " ".join(plan.regenerated),
+        "regenerator_lanes": sum(plan.regenerators.values()),
         "switching": plan.architecture.switching,
         "load_erlang": plan.load_erlang,
         "target_blocking": plan.target,
@@ -103,7 +124,7 @@ def totals_row(
 
 def plan_cost_rows(scenario: Scenario, plan: ArchitecturePlan, prices: dict[str, Price] | None = None) -> list[dict]:
     """Rows of cost.csv for one architecture's plan (:func:`sdmnet.equipment.costs.cost_rows`)."""
-    counts = equipment_counts(plan.resources, plan.installed)
+    counts = plan_counts(plan)
     prices = prices if prices is not None else plan_prices(scenario, plan.architecture)
     return cost_rows(plan.architecture.name, counts, prices, carried_tbps(scenario, plan.evaluation.point))
 

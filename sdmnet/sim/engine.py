@@ -101,6 +101,10 @@ class EngineSetup:
         fills ceil(s / lane) lanes).
     route_classes : tuple of tuple of str
         Per pair and route: name of its transceiver class ("" for routes found without one).
+    route_segments : tuple of tuple of tuple of tuple of int
+        Per pair and route: the segments of a regenerated route (each a tuple of cable indices,
+        booked with its own channel continuity), or ``()`` for a transparent route; empty when no
+        route is regenerated (:mod:`sdmnet.planning.regeneration`).
     """
 
     architecture: Architecture
@@ -124,6 +128,7 @@ class EngineSetup:
     provisioned_fibers: bool = False
     route_lane_gbps: tuple[tuple[float, ...], ...] = ()
     route_classes: tuple[tuple[str, ...], ...] = ()
+    route_segments: tuple[tuple[tuple[tuple[int, ...], ...], ...], ...] = ()
 
     @property
     def unrouted_pairs(self) -> tuple[tuple[str, str], ...]:
@@ -221,6 +226,7 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
     site_index = {s.id: i for i, s in enumerate(topo.sites)}
     sizes, probs = size_classes(scenario.traffic)
     routes, route_units, route_gbps, route_lanes, route_lane_gbps, route_classes = [], [], [], [], [], []
+    route_segments: list[tuple] = []
     for p in pairs:
         found_routes = found.get(p, [])
         routes.append(tuple(r.cables for r in found_routes))
@@ -240,6 +246,7 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
         route_lanes.append(tuple(lanes))
         route_lane_gbps.append(tuple(lane_rates))
         route_classes.append(tuple(names))
+        route_segments.append(tuple(tuple(getattr(r, "segments", ())) for r in found_routes))
     share = np.array([weights[p] for p in pairs])
     return EngineSetup(
         architecture=arch,
@@ -263,6 +270,7 @@ def prepare(scenario: Scenario, arch: Architecture, route_finder: RouteFinder | 
         provisioned_fibers=bool(geometries and geometries[0].whole_fiber and arch.share),
         route_lane_gbps=tuple(route_lane_gbps),
         route_classes=tuple(route_classes),
+        route_segments=tuple(route_segments) if any(any(r) for r in route_segments) else (),
     )
 
 
@@ -503,6 +511,41 @@ def _tally_grown(histogram: list[int], value: int) -> None:
 _BookingKind = tuple[int, int, int, int, int, int, int]
 
 
+class _Segments(tuple):
+    """A regenerated route's cables in order, with ``parts``: its segments, each booked with its
+    own channel continuity (:func:`_segmented_take`)."""
+
+    parts: tuple[tuple[int, ...], ...]
+
+    def __new__(cls, cables: tuple[int, ...], parts: tuple[tuple[int, ...], ...]) -> _Segments:
+        self = super().__new__(cls, cables)
+        self.parts = parts
+        return self
+
+
+def _segmented_take(
+    take: Callable[[tuple[int, ...], int], Grant | None], give_back: Callable[[Grant], None]
+) -> Callable[[tuple[int, ...], int], Grant | None]:
+    """``take`` that books a regenerated route segment by segment (one grant for all of them);
+    used only when some route is regenerated, so transparent runs keep the plain ``take``."""
+
+    def take_route(cables: tuple[int, ...], n: int) -> Grant | None:
+        parts = getattr(cables, "parts", None)
+        if parts is None:
+            return take(cables, n)
+        grant: Grant = []
+        for part in parts:
+            got = take(part, n)
+            if got is None:
+                if grant:
+                    give_back(grant)
+                return None
+            grant += got
+        return grant
+
+    return take_route
+
+
 def _route_table(
     setup: EngineSetup, coding: _SiteCoding
 ) -> tuple[list, list[tuple[tuple[int, ...], int, _BookingKind]]]:
@@ -529,7 +572,8 @@ def _route_table(
                         coding.code(b, per_end, c))
                 kinds.append((tuple(cables), n, kind))
                 route_kinds.append(kind)
-            rows.append((tuple(cables), units, tuple(route_kinds)))
+            segments = setup.route_segments[p][r] if setup.route_segments else ()
+            rows.append((_Segments(cables, segments) if segments else tuple(cables), units, tuple(route_kinds)))
         table.append(tuple(rows))
     return table, kinds
 
@@ -612,7 +656,7 @@ def simulate_replication(
     run = _start_run(setup, load_erlang, seed, replication, requests, warmup)
     env, state, coding, sizes = run.env, run.state, run.coding, setup.sizes_gbps
     schedule = env.schedule
-    take, give_back = state.take, state.give_back
+    take, give_back = run.take, state.give_back
     share = arch.share
     code = coding.code
     route_table, batches = run.route_table, run.batches
@@ -777,6 +821,7 @@ class _Run:
     site_stamp: list[int]
     cable_stamp: list[int]
     kind_stamp: list[int]
+    take: Callable[[tuple[int, ...], int], Grant | None]  # state.take, segment by segment where regenerated
 
 
 def _start_run(
@@ -805,6 +850,7 @@ def _start_run(
         pair_batch_offered=pair_batch_offered, class_blocked=[0] * nclass, pair_blocked=[0] * npair,
         pair_batch_blocked=[[0] * batches for _ in range(npair)], site_state=[0] * nsite,
         site_peak=[0] * nsite, site_stamp=[0] * nsite, cable_stamp=[0] * ncable, kind_stamp=[0] * len(kinds),
+        take=_segmented_take(state.take, state.give_back) if setup.route_segments else state.take,
     )  # fmt: skip
 
 
@@ -839,7 +885,7 @@ class _Grooming:
             for p, per_route in enumerate(fiber_plan(setup, load_erlang)):
                 for r, n in enumerate(per_route):
                     for _ in range(n):
-                        g = run.state.take(run.route_table[p][r][0], 1)
+                        g = run.take(run.route_table[p][r][0], 1)
                         assert g is not None, "provisioned fiber paths exceed the cables"
                         self.held.append(g)
                 self.spare_lanes.append([n * per_fiber[p][r] for r, n in enumerate(per_route)])
@@ -861,7 +907,7 @@ class _Grooming:
                 unit.modules = per_end
 
     def book_shared(self, p: int, k: int) -> tuple | None:
-        take, give_back = self.run.state.take, self.run.state.give_back
+        take, give_back = self.run.take, self.run.state.give_back
         size = self.setup.sizes_gbps[k]
         for r, (cables, _units, route_kinds) in enumerate(self.run.route_table[p]):
             # Spare capacity of units already lit on this route first, then new units.

@@ -11,7 +11,8 @@ lane); k = 3 paths.  Two architectures are planned: per core (independent, lane 
 Printed per architecture: candidates simulated, planned fiber pairs, blocking with its interval,
 and for the whole run: wall time and how many times the engine's ``prepare`` (routes and
 physics) ran.  No assertions: the figures are for reading.  The machine may be shared: wall
-times move with its load; the candidate and prepare counts do not.
+times move with its load (CPU time of the process, printed too, moves less; run with
+``--jobs 1`` so that it counts all the work); the candidate and prepare counts do not.
 """
 
 from __future__ import annotations
@@ -122,14 +123,14 @@ def main(argv: list[str] | None = None) -> int:
           f"{args.replications} x {args.requests} requests per candidate (first batch), jobs {args.jobs}")  # fmt: skip
     counter = PrepareCounter()
     with tempfile.TemporaryDirectory() as out:
-        started = time.perf_counter()
+        started, cpu_started = time.perf_counter(), time.process_time()
         result = api.plan(scenario, out, jobs=args.jobs, progress=False)
-        wall = time.perf_counter() - started
+        wall, cpu = time.perf_counter() - started, time.process_time() - cpu_started
     for plan in result.plans:
         iv = plan.evaluation.point.blocking
         print(f"{plan.architecture.name:<10} candidates {plan.candidates:>3}  fiber pairs {sum(plan.fiber_pairs):>4}  "
               f"blocking {iv.mean:.4f} [{iv.low:.4f}, {iv.high:.4f}]  met {plan.met}")  # fmt: skip
-    print(f"wall time {wall:.1f} s, prepare calls {counter.calls} ({len(scenario.architectures)} architectures)")
+    print(f"wall time {wall:.1f} s, CPU time of this process {cpu:.1f} s, prepare calls {counter.calls} ({len(scenario.architectures)} architectures)")
     return 0
 
 

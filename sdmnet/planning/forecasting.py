@@ -137,7 +137,10 @@ def forecast_year(scenario: Scenario, year: int, growth: float | None = None) ->
         sc = replace(sc, traffic=replace(sc.traffic, pattern="matrix", matrix=matrix))
     lane = spec.lane_gbps(year, scenario.transceiver.lane_gbps)
     if lane != scenario.transceiver.lane_gbps:
-        sc = replace(sc, transceiver=replace(sc.transceiver, lane_gbps=lane))
+        # Every class moves up the roadmap in proportion, keeping its required OSNR (docs/planning.md).
+        ratio = lane / scenario.transceiver.lane_gbps
+        classes = tuple(replace(c, lane_gbps=c.lane_gbps * ratio) for c in sc.transceivers)
+        sc = replace(sc, transceiver=replace(sc.transceiver, lane_gbps=lane), transceivers=classes)
     return year_scenario(sc, factor), factor
 
 

@@ -130,7 +130,8 @@ def main(argv: list[str] | None = None) -> int:
         iv = plan.evaluation.point.blocking
         print(f"{plan.architecture.name:<10} candidates {plan.candidates:>3}  fiber pairs {sum(plan.fiber_pairs):>4}  "
               f"blocking {iv.mean:.4f} [{iv.low:.4f}, {iv.high:.4f}]  met {plan.met}")  # fmt: skip
-    print(f"wall time {wall:.1f} s, CPU time of this process {cpu:.1f} s, prepare calls {counter.calls} ({len(scenario.architectures)} architectures)")
+    print(f"wall time {wall:.1f} s, CPU time of this process {cpu:.1f} s, "
+          f"prepare calls {counter.calls} ({len(scenario.architectures)} architectures)")  # fmt: skip
     return 0
 
 

@@ -19,8 +19,8 @@ not listed here.  Every default names where it comes from (docs/model.md, sectio
 
 What is "from memory" was recalled, not read from the source; "assumption" is our planning
 choice where no published figure applies (SDM switching parts have no market price yet).
-Transceiver classes (``[[transceivers]]``) will be priced per class as ``transceiver_lane:CLASS``
-rows; today every lane is of the ``[transceiver]`` class.
+Transceiver classes (``[[transceivers]]``) are priced per class as ``transceiver_lane:CLASS`` rows
+in a plan (:func:`sdmnet.planning.tables.plan_counts`), at the class's own ``cost`` and ``power_w``.
 """
 
 from __future__ import annotations
@@ -144,7 +144,9 @@ LEGACY_UNIT_COSTS: dict[str, tuple[str, ...]] = {
 
 
 def item(name: str) -> Item:
-    """The catalogue entry ``name`` (KeyError if absent)."""
+    """The catalogue entry ``name`` (KeyError if absent); ``transceiver_lane:CLASS`` is a lane of
+    a named class, described as ``transceiver_lane``."""
+    name = name.split(":", 1)[0]
     for entry in ITEMS:
         if entry.name == name:
             return entry

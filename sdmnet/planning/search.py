@@ -32,7 +32,7 @@ from ..network.traffic import pair_weights
 from ..sim.engine import EngineSetup, RouteFinder, prepare
 from .acceptance import Targets, worst_pair
 from .candidates import DEFAULT_MAX_CANDIDATES, Evaluation, Evaluator
-from .costing import pair_prices
+from .costing import class_lanes, pair_prices
 from .cuts import CutJudge, CutOutcome, cut_judges, cut_outcomes
 from .first_guess import (
     analytic_first_guess,
@@ -100,6 +100,8 @@ class ArchitecturePlan:
         Pairs (``a-b``) served through regenerators.
     regenerators : dict of str to int
         Regenerator lanes to install per site (:func:`sdmnet.planning.regeneration.regenerator_lanes`).
+    class_lanes : dict of str to int
+        Installed lanes per transceiver class (:func:`sdmnet.planning.costing.class_lanes`).
     """
 
     architecture: Architecture
@@ -122,6 +124,7 @@ class ArchitecturePlan:
     history: list[Evaluation] = field(default_factory=list)
     regenerated: tuple[str, ...] = ()
     regenerators: dict[str, int] = field(default_factory=dict)
+    class_lanes: dict[str, int] = field(default_factory=dict)
 
     @property
     def pairs_by_cable(self) -> dict[str, int]:
@@ -386,6 +389,7 @@ def plan_architecture(
         else:
             outcomes = cut_outcomes(judges, ev.fiber_pairs)
     planned = replace(scenario, topology=scenario.topology.with_fiber_pairs(dict(zip(cables, ev.fiber_pairs))))
+    installed = installed_transceivers(ev.point, scenario.transceiver.overflow)
     return ArchitecturePlan(
         architecture=arch,
         load_erlang=load,
@@ -400,11 +404,12 @@ def plan_architecture(
         candidates=evaluator.spent,
         note=note,
         resources=installed_resources(planned, arch),
-        installed=installed_transceivers(ev.point, scenario.transceiver.overflow),
+        installed=installed,
         pairs=setup.pairs,
         confidence=spec.confidence,
         cuts=outcomes,
         history=list(evaluator.history),
         regenerated=tuple("-".join(setup.pairs[p]) for p in regenerated_pairs(setup, scenario.topology_for(arch))),
         regenerators=regenerator_lanes(scenario, setup, ev.point, load),
+        class_lanes=class_lanes(scenario, setup, ev.point, installed.lanes, load),
     )

@@ -18,16 +18,20 @@ from ..equipment.costs import (
 )
 from ..equipment.resources import ModuleFigures, module_figures
 from ..inputs.model import Scenario
-from .costing import plan_prices
+from .costing import CLASS_LANE, plan_prices
 from .search import ArchitecturePlan
 
 __all__ = ["plan_counts", "plan_rows", "totals_row", "plan_cost_rows", "site_rows", "candidate_rows"]
 
 
 def plan_counts(plan: ArchitecturePlan) -> dict[str, float]:
-    """Count of every catalogue item of the plan, regenerator lanes included."""
+    """Count of every catalogue item of the plan, regenerator lanes included; installed lanes of
+    named transceiver classes as ``transceiver_lane:NAME`` (priced per class)."""
     counts = equipment_counts(plan.resources, plan.installed)
     counts["regenerator_lane"] = sum(plan.regenerators.values())
+    for name, n in plan.class_lanes.items():
+        counts[CLASS_LANE.format(name)] = n
+        counts["transceiver_lane"] -= n
     return counts
 
 

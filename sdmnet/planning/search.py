@@ -289,11 +289,21 @@ def survive_cuts(
     ev, x = start, np.asarray(start.fiber_pairs, dtype=int)
     notes = [f"cut {j.cut.name} disconnects pairs carrying {j.disconnected_share:.3g} of the load, above cut_target"
              for j in judges if j.hopeless]  # fmt: skip
+    # Cuts met once are not simulated again while the plan grows (more fibers rarely hurt);
+    # every cut is checked again at the end, and any that fails there is grown for again.
+    settled = {i for i, j in enumerate(judges) if j.hopeless}
     while True:
-        outcomes = cut_outcomes(judges, x)
-        failing = [i for i, o in enumerate(outcomes) if not o.evaluation.meets and not judges[i].hopeless]
+        pending = [i for i in range(len(judges)) if i not in settled]
+        seen = {i: judges[i].evaluator(x) for i in pending}
+        failing = [i for i in pending if not seen[i].meets]
+        settled |= {i for i in pending if seen[i].meets}
         if not failing:
-            break
+            outcomes = cut_outcomes(judges, x)
+            failing = [i for i, o in enumerate(outcomes) if not o.evaluation.meets and not judges[i].hopeless]
+            if not failing:
+                break
+            settled -= set(failing)
+            seen = {i: outcomes[i].evaluation for i in failing}
         addable = x < upper
         if not addable.any():
             notes.append(f"cut_target not met with every cable at max_fiber_pairs = {upper}")
@@ -301,13 +311,14 @@ def survive_cuts(
         if evaluator.exhausted:
             notes.append(f"cut_target not met within {evaluator.budget} simulated candidates")
             break
-        worst = max(failing, key=lambda i: outcomes[i].evaluation.point.blocking.mean)
-        scores = grow_scores(outcomes[worst].evaluation.point, x, judges[worst].evaluator.setup.routes,
+        worst = max(failing, key=lambda i: seen[i].point.blocking.mean)
+        scores = grow_scores(seen[worst].point, x, judges[worst].evaluator.setup.routes,
                              shape.units_per_pair, shape.mean_units, shape.pair_price, addable)  # fmt: skip
         x = x.copy()
         x[int(np.argmax(scores))] += 1
         evaluator.set_phase(f"cut {judges[worst].cut.name}")
         ev = evaluator(x)
+    outcomes = cut_outcomes(judges, x)
     if not ev.meets:
         notes.append("the intact network is not accepted at the plan grown for the cuts")
     return ev, outcomes, "; ".join(notes)

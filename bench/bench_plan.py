@@ -8,7 +8,8 @@ from every site to its two nearest neighbours; one pair of weakly coupled 7-core
 channels per cable; uniform traffic of 1, 2 and 4-lane demands (100/200/400 Gb/s at 100 Gb/s a
 lane); k = 3 paths.  Two architectures are planned: per core (independent, lane change) and joint.
 
-Printed per architecture: candidates simulated, planned fiber pairs, blocking with its interval,
+Printed per architecture: candidates simulated, replications simulated over all of them (work
+that machine load does not change), planned fiber pairs, blocking with its interval,
 and for the whole run: wall time and how many times the engine's ``prepare`` (routes and
 physics) ran.  No assertions: the figures are for reading.  The machine may be shared: wall
 times move with its load (CPU time of the process, printed too, moves less; run with
@@ -128,8 +129,10 @@ def main(argv: list[str] | None = None) -> int:
         wall, cpu = time.perf_counter() - started, time.process_time() - cpu_started
     for plan in result.plans:
         iv = plan.evaluation.point.blocking
-        print(f"{plan.architecture.name:<10} candidates {plan.candidates:>3}  fiber pairs {sum(plan.fiber_pairs):>4}  "
-              f"blocking {iv.mean:.4f} [{iv.low:.4f}, {iv.high:.4f}]  met {plan.met}")  # fmt: skip
+        replications = sum(ev.point.replications for ev in plan.history)
+        print(f"{plan.architecture.name:<10} candidates {plan.candidates:>3}  replications {replications:>4}  "
+              f"fiber pairs {sum(plan.fiber_pairs):>4}  blocking {iv.mean:.4f} [{iv.low:.4f}, {iv.high:.4f}]  "
+              f"met {plan.met}")  # fmt: skip
     print(f"wall time {wall:.1f} s, CPU time of this process {cpu:.1f} s, "
           f"prepare calls {counter.calls} ({len(scenario.architectures)} architectures)")  # fmt: skip
     return 0

@@ -355,6 +355,7 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
         site_growth=spec.site_growth, growth_band=list(spec.growth_band),
         forecast_section="scenario" if scenario.forecast is not None else "defaults",
         max_candidates_per_year=DEFAULT_MAX_CANDIDATES,
+        setups={yp.plan.architecture.name: yp.plan.setup for yp in all_years if yp.year == 0 and yp.plan.setup},
     )
     return ForecastResult(
         out, all_years, pd.DataFrame(rows, columns=FORECAST_COLUMNS), totals_frame, pd.DataFrame(cands),

@@ -53,14 +53,21 @@ def start_run(scenario: Scenario, out_dir: Path | str) -> Path:
     return out
 
 
-def finish_run(scenario: Scenario, out: Path, verb: str, started: float, **options: object) -> float:
+def finish_run(
+    scenario: Scenario, out: Path, verb: str, started: float, setups: dict | None = None, **options: object
+) -> float:
     """Write ``run.json`` of a ``plan`` or ``forecast`` run (with the plan settings used).
 
+    ``setups`` (architecture name -> the prepared setup its plan used) spares preparing routes
+    again for run.json; an architecture missing from it (an interrupted run) is prepared.
     Returns the wall time since ``started`` (a :func:`time.perf_counter` reading).
     """
     wall = time.perf_counter() - started
+    known = setups or {}
+    if any(a.name not in known for a in scenario.architectures):
+        known = None
     manifest = run_manifest(
-        scenario, verb, wall, **options,
+        scenario, verb, wall, setups=known, **options,
         target_blocking=plan_spec(scenario).target_blocking,
         plan_section="scenario" if scenario.plan is not None else "defaults",
     )
@@ -134,6 +141,7 @@ def run_plan(
         dimensioning_load_erlang=dimensioning_load(scenario), confidence=spec.confidence,
         pair_target=spec.pair_target, per_pair=spec.per_pair, survive=spec.survive, cut_target=spec.cut_target,
         max_candidates=DEFAULT_MAX_CANDIDATES, replication_cap_factor=REPLICATION_CAP_FACTOR,
+        setups={p.architecture.name: p.setup for p in plans if p.setup is not None},
     )
     cuts = pd.DataFrame(cut_part) if with_cuts else None
     return PlanResult(

@@ -102,6 +102,8 @@ class ArchitecturePlan:
         Regenerator lanes to install per site (:func:`sdmnet.planning.regeneration.regenerator_lanes`).
     class_lanes : dict of str to int
         Installed lanes per transceiver class (:func:`sdmnet.planning.costing.class_lanes`).
+    setup : EngineSetup or None
+        The prepared routes the plan was simulated on (its own fiber pairs not applied).
     """
 
     architecture: Architecture
@@ -125,6 +127,7 @@ class ArchitecturePlan:
     regenerated: tuple[str, ...] = ()
     regenerators: dict[str, int] = field(default_factory=dict)
     class_lanes: dict[str, int] = field(default_factory=dict)
+    setup: EngineSetup | None = None
 
     @property
     def pairs_by_cable(self) -> dict[str, int]:
@@ -423,4 +426,5 @@ def plan_architecture(
         regenerated=tuple("-".join(setup.pairs[p]) for p in regenerated_pairs(setup, scenario.topology_for(arch))),
         regenerators=regenerator_lanes(scenario, setup, ev.point, load),
         class_lanes=class_lanes(scenario, setup, ev.point, installed.lanes, load),
+        setup=setup,
     )

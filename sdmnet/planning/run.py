@@ -11,7 +11,6 @@ from pathlib import Path
 
 import pandas as pd
 
-from ..equipment.costs import unit_prices
 from ..equipment.resources import module_figures
 from ..inputs.model import Scenario
 from ..network.architectures import cable_geometries
@@ -19,6 +18,7 @@ from ..output.manifest import ensure_out_dir, run_manifest
 from ..output.tables import write_json, write_table
 from ..sim.progress import ProgressBar
 from .candidates import DEFAULT_MAX_CANDIDATES, REPLICATION_CAP_FACTOR
+from .costing import plan_prices
 from .cuts import cut_rows
 from .first_guess import dimensioning_load, plan_spec
 from .search import ArchitecturePlan, plan_architecture
@@ -122,7 +122,7 @@ def run_plan(
         plans.append(ap)
         plan_part += plan_rows(scenario, ap)
         module = module_figures(scenario, arch)
-        prices = unit_prices(scenario, module)
+        prices = plan_prices(scenario, arch)
         totals_part.append(totals_row(scenario, ap, prices, module))
         cost_part += plan_cost_rows(scenario, ap, prices)
         site_part += site_rows(scenario, ap)

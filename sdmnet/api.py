@@ -33,9 +33,10 @@ from .output.tables import (
     write_table,
 )
 from .sim.engine import ReplicationRecord, prepare
+from .sim.precision import more_replications, run_length, run_length_text
 from .sim.progress import ProgressBar
 from .sim.stats import PointSummary, summarize_point
-from .sim.sweep import TaskStore, plan_tasks, run_sweep, scenario_fingerprint
+from .sim.sweep import Task, TaskStore, plan_tasks, run_sweep, scenario_fingerprint
 
 __all__ = [
     "SimulationResult",
@@ -48,6 +49,7 @@ __all__ = [
     "demo",
     "starter",
     "summarize_records",
+    "run_length_text",
     "DemoResult",
     "plan_text",
     "load_point_text",
@@ -71,12 +73,15 @@ class SimulationResult:
 
 
 def summarize_records(
-    scenario: Scenario, records: dict[str, ReplicationRecord]
+    scenario: Scenario, records: dict[str, ReplicationRecord], tasks: list[Task] | None = None
 ) -> tuple[list[PointSummary], dict[str, InstalledResources]]:
-    """Aggregate records by (architecture, load) in scenario order, with installed resources."""
+    """Aggregate records by (architecture, load) in scenario order, with installed resources.
+
+    ``tasks``: those run (default :func:`~sdmnet.sim.sweep.plan_tasks`; more with ``precision``).
+    """
     resources = {a.name: installed_resources(scenario, a) for a in scenario.architectures}
     grouped: dict[tuple[int, int], list[ReplicationRecord]] = {}
-    for task in plan_tasks(scenario):
+    for task in plan_tasks(scenario) if tasks is None else tasks:
         if task.key in records:
             grouped.setdefault((task.arch_index, task.load_index), []).append(records[task.key])
     points = [summarize_point(grouped[k], scenario.run.confidence) for k in sorted(grouped)]
@@ -133,7 +138,13 @@ def simulate(
     store = TaskStore(out / "tasks", scenario_fingerprint(scenario))
     bar = ProgressBar("simulate", "tasks", len(tasks), enabled=progress)
     records = run_sweep(scenario, store, tasks=tasks, jobs=jobs, scheduler=scheduler, resume=resume, progress=bar)
-    points, resources = summarize_records(scenario, records)
+    # [run] precision: more replications, round by round, where the blocking is still too wide.
+    while more := more_replications(scenario, tasks, records):
+        tasks += more
+        bar = ProgressBar("simulate", "more replications", len(more), enabled=progress)
+        records.update(run_sweep(scenario, store, tasks=more, jobs=jobs, scheduler=scheduler, resume=True,
+                                 progress=bar))  # fmt: skip
+    points, resources = summarize_records(scenario, records, tasks)
     modules = {a.name: module_figures(scenario, a) for a in scenario.architectures}
     prices = {name: unit_prices(scenario, module) for name, module in modules.items()}
     summary = summary_table(scenario, points, setups, resources, prices)
@@ -153,7 +164,8 @@ def simulate(
     ):
         write_table(frame, out / f"{name}.csv")
     wall = time.perf_counter() - started
-    manifest = run_manifest(scenario, "simulate", wall, setups=setups, jobs=jobs, scheduler=scheduler)
+    manifest = run_manifest(scenario, "simulate", wall, setups=setups, jobs=jobs, scheduler=scheduler,
+                            run_length=run_length(scenario.run, points))  # fmt: skip
     write_json(manifest, out / "run.json")
     if figures:
         report(out)

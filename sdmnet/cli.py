@@ -92,6 +92,8 @@ def cmd_simulate(args: argparse.Namespace) -> int:
         progress=not args.quiet,
     )
     print(api.load_point_text(result.summary))
+    for line in api.run_length_text(scenario.run, result.points):
+        print(line)
     _warn_unrouted(result.summary)
     _warn_unsteady(result.summary)
     print(f"results in {result.out_dir}/ ({result.wall_time_s:.1f} s), report.html")

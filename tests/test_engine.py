@@ -20,7 +20,7 @@ from builders import chain, fiber_type, scenario, shortest_routes, single_cable,
 
 from sdmnet.errors import ConfigurationError
 from sdmnet.inputs.model import Architecture
-from sdmnet.sim.engine import _BATCH, _arrivals, fiber_plan, prepare, replication_seed, simulate_replication
+from sdmnet.sim.engine import _BATCH, _Arrivals, fiber_plan, prepare, replication_seed, simulate_replication
 from sdmnet.sim.stats import ratio_interval, t_interval
 
 
@@ -246,8 +246,8 @@ def test_time_averages_peaks_and_site_histograms_equal_sampling_the_state_at_eve
     setup = prepare(sc, arch, shortest_routes)
     c = fiber.coupled_group if fiber.coupling == "random" else 1
     site_of = {s: i for i, s in enumerate(setup.sites)}
-    records = list(islice(_arrivals(replication_seed(5, 1), setup, 9.0, range(0), np.zeros(3, dtype=np.int64),
-                                    np.zeros(len(setup.pairs), dtype=np.int64)), warmup + requests))
+    records = list(islice(_Arrivals(replication_seed(5, 1), setup, 9.0, range(0), np.zeros(3, dtype=np.int64),
+                                    np.zeros(len(setup.pairs), dtype=np.int64)).records, warmup + requests))
     busy = [0] * len(setup.cables)
     sites = {"modules": [0] * len(setup.sites), "lanes": [0] * len(setup.sites)}
     totals = {"modules": 0, "lanes": 0}
@@ -316,7 +316,8 @@ def test_time_averages_peaks_and_site_histograms_equal_sampling_the_state_at_eve
     assert sum(n for _x, n in rec.site_lanes_histogram[site_of["A"]]) > 0
 
 
-def test_arrival_records_are_sequential_sums_and_offered_counts_tally_the_measured_ones():
+@pytest.mark.parametrize("measured_late", [False, True])
+def test_arrival_records_are_sequential_sums_and_offered_counts_tally_the_measured_ones(measured_late):
     # Arrival times from batched numpy draws must be the very floats of adding the gaps one by
     # one, across batch boundaries; offered counts tallied per batch must equal counting records.
     arch = Architecture("ind", "independent")
@@ -324,7 +325,15 @@ def test_arrival_records_are_sequential_sums_and_offered_counts_tally_the_measur
     setup = prepare(sc, arch, shortest_routes)
     total, measured = 2 * _BATCH + 123, range(1000, 2 * _BATCH + 100)
     class_offered, pair_offered = np.zeros(3, dtype=np.int64), np.zeros(3, dtype=np.int64)
-    records = list(islice(_arrivals(replication_seed(4, 2), setup, 2.5, measured, class_offered, pair_offered), total))
+    if measured_late:
+        # The measured range set once the warm-up is over (warmup = "auto"), mid-batch.
+        stream = _Arrivals(replication_seed(4, 2), setup, 2.5, None, class_offered, pair_offered)
+        records = list(islice(stream.records, measured.start))
+        stream.measure_from(measured.start, len(measured))
+        records += islice(stream.records, total - measured.start)
+    else:
+        stream = _Arrivals(replication_seed(4, 2), setup, 2.5, measured, class_offered, pair_offered)
+        records = list(islice(stream.records, total))
     gaps = np.random.default_rng(replication_seed(4, 2).spawn(4)[0])
     clock, expected_times = 0.0, []
     for _ in range(3):

@@ -532,6 +532,14 @@ BAD_SCENARIOS = [
     ),
     Bad("zero-requests", scenario_with("requests = 1000", "requests = 0"), "run.requests: must be >= 1, got 0"),
     Bad("negative-warmup", scenario_with("warmup = 100", "warmup = -1"), "run.warmup: must be >= 0, got -1"),
+    Bad("warmup-word", scenario_with("warmup = 100", 'warmup = "automatic"'),
+        "run.warmup: expected a whole number or 'auto', got string 'automatic' (did you mean 'auto'?)"),
+    Bad("warmup-fraction", scenario_with("warmup = 100", "warmup = 1.5"),
+        "run.warmup: expected a whole number or 'auto', got number 1.5"),
+    Bad("precision-range", scenario_with("warmup = 100", "warmup = 100\nprecision = 0"),
+        "run.precision: must be between 0 and 1 (exclusive), got 0"),
+    Bad("max-replications", scenario_with("warmup = 100", "warmup = 100\nmax_replications = 1"),
+        "run.max_replications: must be >= 2, got 1"),
     Bad("zero-k-paths", scenario_with("k_paths = 2", "k_paths = 0"), "run.k_paths: must be >= 1, got 0"),
     Bad(
         "forecast-factors-length",
@@ -756,6 +764,15 @@ def test_good_inline_scenario(tmp_path: Path) -> None:
     assert scenario.name == "scen"  # the file stem when no name is given
     assert scenario.traffic.loads_erlang == (5.0, 10.0)
     assert scenario.architecture("pairs").group == 2
+
+
+def test_warmup_auto_and_precision(tmp_path: Path) -> None:
+    (tmp_path / "topo.toml").write_text(TOPOLOGY, encoding="utf-8")
+    text = edit(SCENARIO, "warmup = 100", 'warmup = "auto"\nprecision = 0.05\nmax_replications = 40')
+    (tmp_path / "scen.toml").write_text(text, encoding="utf-8")
+    run = load_scenario(tmp_path / "scen.toml").run
+    assert (run.warmup, run.precision, run.max_replications) == ("auto", 0.05, 40)
+    assert load_scenario(tmp_path / "scen.toml", overrides={"run.warmup": 300}).run.warmup == 300
 
 
 def test_independent_allowed_when_override_is_weak(tmp_path: Path) -> None:

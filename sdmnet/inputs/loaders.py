@@ -263,6 +263,20 @@ def _as_choice(doc: _Doc, where: str, value: Any, choices: tuple[str, ...]) -> s
     return text
 
 
+def _int_or_word(doc: _Doc, where: str, value: Any, words: tuple[str, ...]) -> int | str:
+    """A whole number, or one of ``words`` (``warmup = 2000`` or ``warmup = "auto"``)."""
+    if isinstance(value, str) and value.strip() in words:
+        return value.strip()
+    numeric = isinstance(value, int) and not isinstance(value, bool)
+    if doc.strings_convert and isinstance(value, str) and re.fullmatch(r"\s*[+-]?[0-9]+\s*", value):
+        numeric = True
+    if numeric:
+        return _as_int(doc, where, value)
+    choices = " or ".join(f"'{w}'" for w in words)
+    hint = _did_you_mean(value, words) if isinstance(value, str) else ""
+    doc.fail(where, f"expected a whole number or {choices}, got {_show(value)}{hint}")
+
+
 def _convert(doc: _Doc, where: str, value: Any, hint: Any) -> Any:
     """Check ``value`` against the type annotation ``hint`` and return it in that type."""
     origin = get_origin(hint)
@@ -271,6 +285,9 @@ def _convert(doc: _Doc, where: str, value: Any, hint: Any) -> Any:
         options = [a for a in get_args(hint) if a is not type(None)]
         if len(options) == 1:
             return _convert(doc, where, value, options[0])
+        words = tuple(str(w) for a in options if get_origin(a) is Literal for w in get_args(a))
+        if options == [int, *[a for a in options if get_origin(a) is Literal]] and words:
+            return _int_or_word(doc, where, value, words)
         doc.fail(where, "unsupported value type")  # pragma: no cover - no such field in the model
     if origin is Literal:
         return _as_choice(doc, where, value, tuple(str(a) for a in get_args(hint)))
@@ -366,7 +383,9 @@ LIMITS: dict[tuple[type, str], Limit] = {
     (TransceiverSpec, "tap_margin"): _greater(0),
     (TransceiverSpec, "overflow"): _inside_unit,
     (RunSpec, "requests"): _at_least(1),
-    (RunSpec, "warmup"): _at_least(0),
+    (RunSpec, "warmup"): lambda v: None if isinstance(v, str) else _at_least(0)(v),
+    (RunSpec, "precision"): _inside_unit,
+    (RunSpec, "max_replications"): _at_least(2),
     (RunSpec, "replications"): _at_least(1),
     (RunSpec, "k_paths"): _at_least(1),
     (RunSpec, "confidence"): _inside_unit,

@@ -398,21 +398,32 @@ class RunSpec:
     ----------
     requests : int
         Arrivals measured per replication, after the warm-up.
-    warmup : int
-        Arrivals simulated and discarded at the start of each replication.
+    warmup : int or "auto"
+        Arrivals simulated and discarded at the start of each replication; ``"auto"``: each
+        replication warms up until the demands in flight have settled (MSER-5,
+        :mod:`sdmnet.sim.warmup`).
     replications : int
-        Independent replications per (architecture, load) point; >= 2 for an interval.
+        Independent replications per (architecture, load) point; >= 2 for an interval.  With
+        ``precision``, the replications of the first round.
     k_paths : int
         Candidate shortest paths tried per datacenter pair.
     confidence : float
         Level of the Student-t interval.
+    precision : float or None
+        Relative half-width of the network request blocking's interval to reach: replications
+        are added, round by round, at every load point still wider, until it is reached or
+        ``max_replications`` (:mod:`sdmnet.sim.precision`).  None: ``replications`` exactly.
+    max_replications : int or None
+        Most replications per point with ``precision`` (None: ten times ``replications``).
     """
 
     requests: int = 20_000
-    warmup: int = 2_000
+    warmup: int | Literal["auto"] = 2_000
     replications: int = 5
     k_paths: int = 3
     confidence: float = 0.95
+    precision: float | None = None
+    max_replications: int | None = None
 
 
 @dataclass(frozen=True)

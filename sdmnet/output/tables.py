@@ -21,6 +21,7 @@ from ..equipment.resources import InstalledResources
 from ..inputs.model import Scenario
 from ..network.architectures import cable_geometries
 from ..sim.engine import EngineSetup
+from ..sim.precision import relative_half_width
 from ..sim.stats import PointSummary
 
 __all__ = [
@@ -73,6 +74,9 @@ SUMMARY_COLUMNS = [
     "unrouted_pairs",
     "steady_state",
     "steady_state_p",
+    "warmup",
+    "warmup_settled",
+    "blocking_precision",
 ]
 
 FLOAT_FORMAT = "%.10g"
@@ -130,6 +134,12 @@ def summary_table(
                 # Replications that disagree beyond their own batches (sdmnet.sim.stats).
                 "steady_state": "yes" if p.steady_state.steady else "no",
                 "steady_state_p": p.steady_state.p_value,
+                # Warm-up arrivals per replication (mean over replications); with warmup =
+                # "auto", whether every replication found its demands in flight settled.
+                "warmup": p.warmup,
+                "warmup_settled": "" if p.warmup_settled is None else ("yes" if p.warmup_settled else "no"),
+                # Relative half-width of the blocking's interval ([run] precision; NaN: none blocked).
+                "blocking_precision": relative_half_width(p.blocking),
             }
         )
     return pd.DataFrame(rows, columns=SUMMARY_COLUMNS)

@@ -40,6 +40,7 @@ from ..network.routing import Route, datacenter_pairs
 from ..network.traffic import pair_weights, size_classes
 from .allocation import FiberState, Grant, UnitState
 from .provisioning import provision_fiber_paths
+from .warmup import AUTO, AutoWarmUp
 
 __all__ = ["EngineSetup", "ReplicationRecord", "prepare", "simulate_replication", "replication_seed", "fiber_plan"]
 
@@ -146,6 +147,8 @@ class ReplicationRecord:
     count of transceiver modules, lanes, and lanes of MIMO modules in use was seen by the
     measured arrivals of the pairs that end at the site, as sorted ``[count, arrivals]`` pairs
     (those arrivals are a Poisson stream too, so they see the site's time-average distribution).
+    ``warmup`` is the number of arrivals the warm-up took; ``warmup_settled`` says whether a
+    warm-up the run chose itself found the demands in flight settled (None for a fixed one).
     """
 
     architecture: str
@@ -177,6 +180,8 @@ class ReplicationRecord:
     pair_batch_offered: list[list[int]] = field(default_factory=list)
     pair_batch_blocked: list[list[int]] = field(default_factory=list)
     ended_empty: bool | None = None
+    warmup: int = 0
+    warmup_settled: bool | None = None
 
     def to_dict(self) -> dict:
         """A JSON-ready dict (for task files)."""
@@ -302,30 +307,59 @@ def replication_seed(seed: int, replication: int) -> np.random.SeedSequence:
     return np.random.SeedSequence(seed, spawn_key=(replication,))
 
 
-def _arrivals(
-    seq: np.random.SeedSequence,
-    setup: EngineSetup,
-    rate: float,
-    measured: range,
-    class_offered: np.ndarray,
-    pair_offered: np.ndarray,
-    pair_batch_offered: np.ndarray | None = None,
-) -> Iterator[tuple[float, int, int, int, int, float]]:
+class _Arrivals:
     """Endless ``(time, pair, size class, site a, site b, holding time)`` arrival records.
 
     Record ``i`` comes from draw ``i`` of four independent generators (interarrival gaps, pairs,
     sizes, holding times), drawn in batches of :data:`_BATCH` with numpy.  The records of a batch
-    come from a ``zip`` chained in C, so an arrival costs one tuple.  While drawing, the records
-    whose index lies in ``measured`` are tallied into ``class_offered`` and ``pair_offered``
-    (offered counts need no work per arrival).  The end sites of the pair ride along, looked up
-    per batch.
+    come from a ``zip`` chained in C (:attr:`records`), so an arrival costs one tuple.  While
+    drawing, the records whose index lies in the measured range are tallied into
+    ``class_offered`` and ``pair_offered`` (offered counts need no work per arrival).  The end
+    sites of the pair ride along, looked up per batch.  The measured range may be set once the
+    warm-up has ended (:meth:`measure_from`, for a warm-up the run chooses itself).
     """
-    gap_rng, pair_rng, size_rng, hold_rng = (np.random.default_rng(s) for s in seq.spawn(4))
-    pair_cum, size_cum = np.asarray(setup.pair_cumulative), np.asarray(setup.size_cumulative)
-    ends = np.asarray(setup.pair_sites, dtype=np.int64).reshape(-1, 2)
-    site_a, site_b = ends[:, 0], ends[:, 1]
 
-    def batches() -> Iterator[Iterator[tuple[float, int, int, int, int, float]]]:
+    def __init__(
+        self,
+        seq: np.random.SeedSequence,
+        setup: EngineSetup,
+        rate: float,
+        measured: range | None,
+        class_offered: np.ndarray,
+        pair_offered: np.ndarray,
+        pair_batch_offered: np.ndarray | None = None,
+    ) -> None:
+        self.setup, self.rate = setup, rate
+        self.measured = measured if measured is not None else range(0)
+        self.class_offered, self.pair_offered, self.pair_batch_offered = class_offered, pair_offered, pair_batch_offered
+        self.rngs = [np.random.default_rng(s) for s in seq.spawn(4)]
+        self._drawn: tuple[int, np.ndarray, np.ndarray] | None = None  # the last batch: first index, pairs, sizes
+        self.records: Iterator[tuple[float, int, int, int, int, float]] = chain.from_iterable(self._batches())
+
+    def measure_from(self, start: int, count: int) -> None:
+        """Measure arrivals ``start .. start + count - 1`` (those of the batch drawn already too)."""
+        self.measured = range(start, start + count)
+        if self._drawn is not None:
+            self._tally(*self._drawn)
+
+    def _tally(self, first: int, pairs: np.ndarray, sizes: np.ndarray) -> None:
+        measured = self.measured
+        low, high = max(measured.start - first, 0), min(measured.stop - first, _BATCH)
+        if low < high:
+            self.class_offered[:] += np.bincount(sizes[low:high], minlength=len(self.class_offered))
+            self.pair_offered[:] += np.bincount(pairs[low:high], minlength=len(self.pair_offered))
+            if self.pair_batch_offered is not None:
+                # Measured arrival i falls in batch i * batches // measured.
+                index = np.arange(first + low, first + high) - measured.start
+                batch = index * self.pair_batch_offered.shape[1] // len(measured)
+                np.add.at(self.pair_batch_offered, (pairs[low:high], batch), 1)
+
+    def _batches(self) -> Iterator[Iterator[tuple[float, int, int, int, int, float]]]:
+        setup, rate = self.setup, self.rate
+        gap_rng, pair_rng, size_rng, hold_rng = self.rngs
+        pair_cum, size_cum = np.asarray(setup.pair_cumulative), np.asarray(setup.size_cumulative)
+        ends = np.asarray(setup.pair_sites, dtype=np.int64).reshape(-1, 2)
+        site_a, site_b = ends[:, 0], ends[:, 1]
         clock, first = 0.0, 0
         while True:
             gaps = gap_rng.standard_exponential(_BATCH) / rate
@@ -336,22 +370,13 @@ def _arrivals(
             pairs = _inverse_cdf(pair_rng, pair_cum)
             sizes = _inverse_cdf(size_rng, size_cum)
             holds = hold_rng.standard_exponential(_BATCH) * setup.mean_holding
-            low, high = max(measured.start - first, 0), min(measured.stop - first, _BATCH)
-            if low < high:
-                class_offered[:] += np.bincount(sizes[low:high], minlength=len(class_offered))
-                pair_offered[:] += np.bincount(pairs[low:high], minlength=len(pair_offered))
-                if pair_batch_offered is not None:
-                    # Measured arrival i falls in batch i * batches // measured.
-                    index = np.arange(first + low, first + high) - measured.start
-                    batch = index * pair_batch_offered.shape[1] // len(measured)
-                    np.add.at(pair_batch_offered, (pairs[low:high], batch), 1)
+            self._drawn = (first, pairs, sizes)
+            self._tally(first, pairs, sizes)
             first += _BATCH
             yield zip(
                 times.tolist(), pairs.tolist(), sizes.tolist(), site_a[pairs].tolist(), site_b[pairs].tolist(),
                 holds.tolist(),
             )
-
-    return chain.from_iterable(batches())
 
 
 def _inverse_cdf(rng: np.random.Generator, cumulative: np.ndarray) -> np.ndarray:
@@ -598,7 +623,7 @@ def simulate_replication(
     seed: int,
     replication: int,
     requests: int,
-    warmup: int,
+    warmup: int | str,
     *,
     drain: bool = False,
     observer: Callable[[str, object], None] | None = None,
@@ -617,8 +642,9 @@ def simulate_replication(
         Replication index (selects independent random streams).
     requests : int
         Arrivals measured after the warm-up.
-    warmup : int
-        Arrivals simulated first and not measured.
+    warmup : int or "auto"
+        Arrivals simulated first and not measured; ``"auto"``: until the demands in flight have
+        settled (MSER-5, :mod:`sdmnet.sim.warmup`).
     drain : bool
         Keep running after the last arrival until every demand has departed (for checks that
         the network ends empty); by default the run stops at the last arrival.
@@ -653,7 +679,9 @@ def simulate_replication(
     if load_erlang <= 0:
         raise ValueError("load_erlang must be positive")
     arch = setup.architecture
-    run = _start_run(setup, load_erlang, seed, replication, requests, warmup)
+    auto = AutoWarmUp(load_erlang) if warmup == AUTO else None
+    fixed = 0 if auto is not None else int(warmup)
+    run = _start_run(setup, load_erlang, seed, replication, requests, None if auto is not None else fixed)
     env, state, coding, sizes = run.env, run.state, run.coding, setup.sizes_gbps
     schedule = env.schedule
     take, give_back = run.take, state.give_back
@@ -666,7 +694,8 @@ def simulate_replication(
     site_state, site_peak, site_stamp = run.site_state, run.site_peak, run.site_stamp
     cable_stamp, kind_stamp = run.cable_stamp, run.kind_stamp
     hist = [coding.empty_histogram(s) for s in range(nsite)]
-    m = -warmup  # measured arrivals so far; counts up to 0 through the warm-up
+    # Measured arrivals so far: negative through the warm-up, 0 when measuring starts.
+    m = -(auto.cap + auto.step) if auto is not None else -fixed
     modules = lanes = modules_peak = lanes_peak = modules_stamp = lanes_stamp = 0
     blocked_gbps = 0.0
 
@@ -714,10 +743,25 @@ def simulate_replication(
     # after SimPy's clock, which is exact whenever now >= (t + hold) / 2 (Sterbenz), i.e. in
     # all but the first instants of a run.
     peek, step = env.peek, env.step
+
+    def stretches() -> Iterator[tuple[bool, int]]:
+        # The warm-up: in one stretch, or in stretches until the demands in flight (the
+        # departures waiting on SimPy's queue) have settled; then the measured arrivals.
+        if auto is None:
+            yield False, fixed
+        else:
+            while True:
+                yield False, auto.step
+                if auto.observe(len(env._queue)):
+                    break
+            run.arrivals.measure_from(auto.arrivals, requests)
+        yield True, requests
+
     t = 0.0
-    for measuring, count in ((False, warmup), (True, requests)):
-        records = islice(run.arrivals, count)
+    for measuring, count in stretches():
+        records = islice(run.arrivals.records, count)
         if measuring:
+            m = 0
             # The measured period starts at its first arrival: what departs before it still
             # belongs to the warm-up, and every change until then is part of the starting state.
             first = next(records, None)
@@ -795,6 +839,7 @@ def simulate_replication(
     return _final_record(
         setup, run, totals, load_erlang=load_erlang, replication=replication, requests=requests,
         end_time=max(t, env.now), wall_time_s=time.perf_counter() - started, drain=drain,
+        warmup=auto.arrivals if auto is not None else fixed, settled=auto.settled if auto is not None else None,
     )  # fmt: skip
 
 
@@ -808,7 +853,7 @@ class _Run:
     coding: _SiteCoding
     route_table: list
     kinds: list[tuple[tuple[int, ...], int, _BookingKind]]
-    arrivals: Iterator[tuple[float, int, int, int, int, float]]
+    arrivals: _Arrivals
     batches: int
     class_offered: np.ndarray
     pair_offered: np.ndarray
@@ -825,7 +870,7 @@ class _Run:
 
 
 def _start_run(
-    setup: EngineSetup, load_erlang: float, seed: int, replication: int, requests: int, warmup: int
+    setup: EngineSetup, load_erlang: float, seed: int, replication: int, requests: int, warmup: int | None
 ) -> _Run:
     """Everything one replication needs before its first arrival (see :func:`simulate_replication`)."""
     nclass, npair, nsite, ncable = len(setup.sizes_gbps), len(setup.pairs), len(setup.sites), len(setup.cables)
@@ -833,9 +878,11 @@ def _start_run(
     pair_offered = np.zeros(npair, dtype=np.int64)
     batches = STEADY_BATCHES if requests >= STEADY_BATCHES else 0
     pair_batch_offered = np.zeros((npair, batches), dtype=np.int64)
-    arrivals = _arrivals(
+    # A warm-up the run chooses itself (None) sets the measured range once it has ended.
+    arrivals = _Arrivals(
         replication_seed(seed, replication), setup, load_erlang / setup.mean_holding,
-        range(warmup, warmup + requests), class_offered, pair_offered, pair_batch_offered if batches else None,
+        None if warmup is None else range(warmup, warmup + requests), class_offered, pair_offered,
+        pair_batch_offered if batches else None,
     )  # fmt: skip
     state: UnitState | FiberState
     if setup.whole_fiber:
@@ -1043,6 +1090,8 @@ def _final_record(
     end_time: float,
     wall_time_s: float,
     drain: bool,
+    warmup: int,
+    settled: bool | None,
 ) -> ReplicationRecord:
     """The record of a finished run: counts, time averages from the stamps, peaks, histograms."""
     m, state, coding, sizes = totals.m, run.state, run.coding, setup.sizes_gbps
@@ -1084,4 +1133,6 @@ def _final_record(
         sim_time=float(end_time),
         wall_time_s=wall_time_s,
         ended_empty=ended_empty,
+        warmup=warmup,
+        warmup_settled=settled,
     )

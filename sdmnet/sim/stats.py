@@ -214,6 +214,10 @@ class PointSummary:
     site_mimo_lanes_histogram: tuple[dict[int, int], ...]
     cable_utilisation: tuple[float, ...]
     steady_state: SteadyStateCheck = SteadyStateCheck(True, 1.0, "")
+    # Warm-up arrivals per replication (mean), and whether every warm-up the runs chose
+    # themselves found the demands in flight settled (None for a fixed warm-up).
+    warmup: float = 0.0
+    warmup_settled: bool | None = None
 
 
 def summarize_point(records: Sequence[ReplicationRecord], confidence: float = 0.95) -> PointSummary:
@@ -260,6 +264,8 @@ def summarize_point(records: Sequence[ReplicationRecord], confidence: float = 0.
         site_mimo_lanes_histogram=_pooled([r.site_mimo_lanes_histogram for r in recs]),
         cable_utilisation=tuple(float(x) for x in np.mean([r.cable_utilisation for r in recs], axis=0)),
         steady_state=steady_state_check(recs),
+        warmup=float(np.mean([r.warmup for r in recs])),
+        warmup_settled=None if any(r.warmup_settled is None for r in recs) else all(r.warmup_settled for r in recs),
     )
 
 

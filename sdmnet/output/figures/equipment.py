@@ -163,9 +163,9 @@ def forecast_figure(totals: pd.DataFrame, path: Path, band: pd.DataFrame | None 
         handles,
         labels,
         title="architecture",
-        loc="lower center",
+        loc="upper center",
         ncols=min(len(order), 5),
-        bbox_to_anchor=(0.5, -0.1),
+        bbox_to_anchor=(0.5, 0.0),  # below the axes' labels, whatever its rows
     )
     return save_figure(fig, path)
 

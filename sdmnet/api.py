@@ -137,13 +137,14 @@ def simulate(
     tasks = plan_tasks(scenario)
     store = TaskStore(out / "tasks", scenario_fingerprint(scenario))
     bar = ProgressBar("simulate", "tasks", len(tasks), enabled=progress)
-    records = run_sweep(scenario, store, tasks=tasks, jobs=jobs, scheduler=scheduler, resume=resume, progress=bar)
+    records = run_sweep(scenario, store, tasks=tasks, jobs=jobs, scheduler=scheduler, resume=resume, progress=bar,
+                        setups=setups)  # fmt: skip
     # [run] precision: more replications, round by round, where the blocking is still too wide.
     while more := more_replications(scenario, tasks, records):
         tasks += more
         bar = ProgressBar("simulate", "more replications", len(more), enabled=progress)
         records.update(run_sweep(scenario, store, tasks=more, jobs=jobs, scheduler=scheduler, resume=True,
-                                 progress=bar))  # fmt: skip
+                                 progress=bar, setups=setups))  # fmt: skip
     points, resources = summarize_records(scenario, records, tasks)
     modules = {a.name: module_figures(scenario, a) for a in scenario.architectures}
     prices = {name: unit_prices(scenario, module) for name, module in modules.items()}

@@ -123,3 +123,53 @@ def test_a_failed_task_write_leaves_neither_a_partial_file_nor_a_temporary(tmp_p
     with pytest.raises(TypeError):
         store.save(task, bad)
     assert list((tmp_path / "tasks").iterdir()) == []
+
+
+class _Future:
+    def __init__(self, value):
+        self.value = value
+
+    def result(self):
+        return self.value
+
+
+class _RecordingClient:
+    """A stand-in for distributed.Client that runs tasks at once and records what is sent."""
+
+    made: list[_RecordingClient] = []
+
+    def __init__(self, address, timeout=None):
+        self.scattered, self.submitted = [], []
+        _RecordingClient.made.append(self)
+
+    def scatter(self, data, broadcast=False, hash=True):
+        self.scattered.append((dict(data), broadcast))
+        return {k: _Future(v) for k, v in data.items()}
+
+    def submit(self, fn, *args, key=None, pure=True):
+        self.submitted.append(args)
+        values = [a.value if isinstance(a, _Future) else a for a in args]
+        return _Future(fn(*values))
+
+    def close(self):
+        pass
+
+
+def test_dask_workers_receive_each_prepared_setup_once_not_per_task(tmp_path, monkeypatch):
+    distributed = pytest.importorskip("distributed")
+    from sdmnet.sim.engine import EngineSetup
+
+    monkeypatch.setattr(distributed, "Client", _RecordingClient)
+    monkeypatch.setattr(distributed, "as_completed", lambda futures: iter(futures))
+    sc = _scenario()
+    inline = _summary_bytes(sc, tmp_path / "inline")
+    assert _summary_bytes(sc, tmp_path / "dask", scheduler="tcp://nowhere:1") == inline
+    (client,) = _RecordingClient.made
+    # One broadcast of every architecture's setup; tasks refer to it and carry only indices.
+    ((setups, broadcast),) = client.scattered
+    assert broadcast and sorted(setups) == ["ind", "joint"]
+    assert all(isinstance(s, EngineSetup) for s in setups.values())
+    assert len(client.submitted) == len(plan_tasks(sc))
+    for args in client.submitted:
+        assert not any(isinstance(a, EngineSetup) for a in args)
+        assert sum(isinstance(a, _Future) for a in args) == 1

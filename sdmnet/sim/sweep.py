@@ -1,10 +1,13 @@
 """Sweeps: independent tasks (architecture x load x replication), who runs them, and where
 their results are kept.
 
-Every task is self-contained: it carries the scenario and its indices, and its random streams
-come from the scenario seed and the replication index alone (:func:`sdmnet.sim.engine.replication_seed`),
-so a sweep gives the same records whether it runs inline, in a local process pool or on a Dask
-cluster, in any order.
+Every task is self-contained: it is one replication of a prepared setup (routes and physics of
+one architecture, :func:`sdmnet.sim.engine.prepare`, done once per sweep by the caller), and its
+random streams come from the scenario seed and the replication index alone
+(:func:`sdmnet.sim.engine.replication_seed`), so a sweep gives the same records whether it runs
+inline, in a local process pool or on a Dask cluster, in any order.  A worker receives each
+setup once (a local worker when it starts, a Dask worker by one broadcast), and a task sends only
+its indices.
 
 Each finished task is written at once to ``OUT/tasks/<key>.json`` (write to a temporary file,
 then rename, so a file is whole or absent).  ``resume=True`` reads the tasks already there
@@ -20,7 +23,7 @@ import json
 import os
 import signal
 import sys
-from collections.abc import Callable, Iterable, Iterator
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
@@ -80,24 +83,28 @@ def scenario_fingerprint(scenario: Scenario) -> str:
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
 
-# One prepared setup per (scenario, architecture) per process: preparing routes once per
-# architecture, not once per replication.
-_SETUP_CACHE: dict[tuple[str, str], EngineSetup] = {}
-
-
-def run_task(scenario: Scenario, task: Task, fingerprint: str | None = None) -> ReplicationRecord:
-    """Run one task (the entry point of every executor)."""
-    fp = fingerprint or scenario_fingerprint(scenario)
-    key = (fp, task.architecture)
-    setup = _SETUP_CACHE.get(key)
+def run_task(scenario: Scenario, task: Task, setup: EngineSetup | None = None) -> ReplicationRecord:
+    """Run one task (what every executor runs), on ``setup`` when given (prepared once by the
+    caller, :func:`prepare_setups`), else preparing its architecture here."""
     if setup is None:
-        if len(_SETUP_CACHE) > 64:
-            _SETUP_CACHE.clear()
         setup = prepare(scenario, scenario.architectures[task.arch_index])
-        _SETUP_CACHE[key] = setup
-    return simulate_replication(
-        setup, task.load_erlang, scenario.seed, task.replication, scenario.run.requests, scenario.run.warmup
-    )
+    return replicate(setup, scenario.seed, task, scenario.run.requests, scenario.run.warmup)
+
+
+def replicate(setup: EngineSetup, seed: int, task: Task, requests: int, warmup: int | str) -> ReplicationRecord:
+    """One replication of a prepared setup: the only thing a worker does per task."""
+    return simulate_replication(setup, task.load_erlang, seed, task.replication, requests, warmup)
+
+
+def prepare_setups(
+    scenario: Scenario, tasks: Iterable[Task], setups: Mapping[str, EngineSetup] | None = None
+) -> dict[str, EngineSetup]:
+    """The setup of every architecture ``tasks`` use: those given, the rest prepared here."""
+    found = dict(setups or {})
+    for task in tasks:
+        if task.architecture not in found:
+            found[task.architecture] = prepare(scenario, scenario.architectures[task.arch_index])
+    return found
 
 
 class TaskStore:
@@ -165,30 +172,47 @@ def _ignore_sigint() -> None:
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
 
 
-def _run_task_args(args: tuple[Scenario, Task, str]) -> tuple[Task, ReplicationRecord]:
-    scenario, task, fp = args
-    return task, run_task(scenario, task, fp)
+# What a local worker process holds for the whole sweep: sent once per worker (inherited when
+# forked), so that each task sends only its indices.
+_WORKER: dict[str, object] = {}
 
 
-def _local_results(scenario: Scenario, todo: list[Task], fp: str, jobs: int) -> Iterator[_Finished]:
+def _start_worker(setups: dict[str, EngineSetup], seed: int, requests: int, warmup: int | str) -> None:
+    _ignore_sigint()
+    _WORKER.update(setups=setups, seed=seed, requests=requests, warmup=warmup)
+
+
+def _worker_task(task: Task) -> tuple[Task, ReplicationRecord]:
+    setups: dict[str, EngineSetup] = _WORKER["setups"]  # type: ignore[assignment]
+    seed, requests, warmup = _WORKER["seed"], _WORKER["requests"], _WORKER["warmup"]
+    return task, replicate(setups[task.architecture], seed, task, requests, warmup)  # type: ignore[arg-type]
+
+
+def _local_results(
+    scenario: Scenario, todo: list[Task], setups: dict[str, EngineSetup], jobs: int
+) -> Iterator[_Finished]:
+    run = scenario.run
     if jobs <= 1 or len(todo) <= 1:
         for task in todo:
-            yield task, run_task(scenario, task, fp)
+            yield task, replicate(setups[task.architecture], scenario.seed, task, run.requests, run.warmup)
         return
     import multiprocessing as mp
 
     ctx = mp.get_context("fork" if sys.platform.startswith("linux") else "spawn")
-    pool = ctx.Pool(processes=jobs, initializer=_ignore_sigint)
+    pool = ctx.Pool(processes=jobs, initializer=_start_worker, initargs=(setups, scenario.seed, run.requests,
+                                                                            run.warmup))  # fmt: skip
     try:
         # Larger tasks first would balance better, but tasks of one sweep are alike in size.
-        yield from pool.imap_unordered(_run_task_args, [(scenario, t, fp) for t in todo], chunksize=1)
+        yield from pool.imap_unordered(_worker_task, todo, chunksize=1)
         pool.close()
     finally:
         pool.terminate()
         pool.join()
 
 
-def _dask_results(scenario: Scenario, todo: list[Task], fp: str, address: str) -> Iterator[_Finished]:
+def _dask_results(
+    scenario: Scenario, todo: list[Task], setups: dict[str, EngineSetup], fp: str, address: str
+) -> Iterator[_Finished]:
     try:
         from distributed import Client, as_completed
     except ImportError:
@@ -200,8 +224,15 @@ def _dask_results(scenario: Scenario, todo: list[Task], fp: str, address: str) -
     except (OSError, TimeoutError) as exc:
         raise InputError("<command line>", "--scheduler", f"cannot reach scheduler {address}: {exc}") from None
     try:
-        scattered = client.scatter(scenario, broadcast=True)
-        futures = [client.submit(run_task, scattered, t, fp, key=f"sdmnet-{fp}-{t.key}", pure=False) for t in todo]
+        # Each prepared setup goes to every worker once; a task sends its indices and a
+        # reference to the setup, which the worker already holds.
+        shared = client.scatter(setups, broadcast=True, hash=False)
+        run = scenario.run
+        futures = [
+            client.submit(replicate, shared[t.architecture], scenario.seed, t, run.requests, run.warmup,
+                          key=f"sdmnet-{fp}-{t.key}", pure=False)
+            for t in todo
+        ]  # fmt: skip
         by_future = dict(zip(futures, todo))
         for fut in as_completed(futures):
             yield by_future[fut], fut.result()
@@ -219,6 +250,7 @@ def run_sweep(
     resume: bool = False,
     progress: ProgressBar | None = None,
     on_record: Callable[[Task, ReplicationRecord], None] | None = None,
+    setups: Mapping[str, EngineSetup] | None = None,
 ) -> dict[str, ReplicationRecord]:
     """Run every task of ``scenario`` (or ``tasks``) and return records by task key.
 
@@ -240,6 +272,9 @@ def run_sweep(
         Told of each finished task (and of those resumed); closed when the sweep ends.
     on_record : callable, optional
         Called with each newly finished task and record.
+    setups : mapping, optional
+        Prepared setups by architecture name (:func:`sdmnet.sim.engine.prepare`); the missing
+        ones are prepared here, once, before any task runs.
 
     Raises
     ------
@@ -266,7 +301,12 @@ def run_sweep(
         signal.signal(signal.SIGTERM, _terminate)
     except ValueError:  # not the main thread: leave SIGTERM alone
         old_term = None
-    results = _dask_results(scenario, todo, fp, scheduler) if scheduler else _local_results(scenario, todo, fp, jobs)
+    # Routes and physics once per architecture, here; workers receive the setups, not the work.
+    setups = prepare_setups(scenario, todo, setups)
+    if scheduler:
+        results = _dask_results(scenario, todo, setups, fp, scheduler)
+    else:
+        results = _local_results(scenario, todo, setups, jobs)
     try:
         for task, record in results:
             if store is not None:

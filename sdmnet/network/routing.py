@@ -136,6 +136,7 @@ class _Found:
 
     paths: list[tuple[tuple[int, ...], tuple[int, ...]]]
     tie_free: bool
+    routes: tuple[Route, ...] = ()
 
 
 _Candidate = tuple[float, int, tuple[int, ...], tuple[int, ...]]
@@ -182,12 +183,14 @@ class _Network:
         found = self.found.get((s, t, k))
         if found is None:
             found = self._inherited(s, t, k) or _Search(self, s, t, k).run()
+            # The lengths are the shape's own: every topology of this shape has these routes.
+            cables = topology.cables
+            found.routes = tuple(
+                Route(tuple(self.ids[v] for v in nodes), hops, sum(cables[i].length_km for i in hops))
+                for nodes, hops in found.paths
+            )
             self.found[(s, t, k)] = found
-        cables = topology.cables
-        return tuple(
-            Route(tuple(self.ids[v] for v in nodes), hops, sum(cables[i].length_km for i in hops))
-            for nodes, hops in found.paths
-        )
+        return found.routes
 
     def _inherited(self, s: int, t: int, k: int) -> _Found | None:
         """The pair's routes in the whole topology when this one has cables cut and none of

@@ -31,6 +31,7 @@ __all__ = [
     "evaluated_routes",
     "path_table",
     "feasible_routes",
+    "clear_physics_cache",
 ]
 
 #: The ``transceiver_class`` of a path no class closes, in tables.
@@ -120,12 +121,50 @@ def evaluate_route(
 def evaluated_routes(
     scenario: Scenario, arch: Architecture
 ) -> Iterator[tuple[str, str, list[tuple[Route, PathPhysics]]]]:
-    """Per datacenter pair of ``arch``'s topology, its k shortest routes with their physics."""
+    """Per datacenter pair of ``arch``'s topology, its k shortest routes with their physics.
+
+    Routes come from :func:`~sdmnet.network.routing.route_table` (once per topology shape) and
+    each route's physics is evaluated once per process for what decides it: the route's cables
+    (ends, length, fiber type), the architecture's switching and group, the transceiver, the line
+    and the classes.  So the engine, the estimate, the equipment counts, every plan candidate,
+    cut and forecast year, and every architecture on the same fiber share the work.
+    """
     topology = scenario.topology_for(arch)
     classes = scenario_classes(scenario)
+    memo = _physics_memo((arch.switching, arch.group), scenario.transceiver, scenario.line, classes)
+    cables = [(c.a, c.b, c.length_km, topology.fiber_types[c.fiber_type]) for c in topology.cables]
     for (a, b), routes in route_table(topology, scenario.run.k_paths).items():
-        found = [(r, evaluate_route(topology, r, arch, scenario.transceiver, scenario.line, classes)) for r in routes]
+        found = []
+        for r in routes:
+            key = tuple(cables[i] for i in r.cables)
+            phys = memo.get(key)
+            if phys is None:
+                phys = memo[key] = evaluate_route(topology, r, arch, scenario.transceiver, scenario.line, classes)
+            found.append((r, phys))
         yield a, b, found
+
+
+# Physics per route, per (architecture's unit, transceiver, line, classes); the oldest context is
+# dropped first, and a context is cleared when it grows past a bound (memory stays bounded).
+_PHYSICS: dict[tuple, dict[tuple, PathPhysics]] = {}
+_MAX_CONTEXTS = 16
+_MAX_ROUTES = 200_000
+
+
+def _physics_memo(*context: object) -> dict[tuple, PathPhysics]:
+    memo = _PHYSICS.get(context)
+    if memo is None:
+        if len(_PHYSICS) >= _MAX_CONTEXTS:
+            del _PHYSICS[next(iter(_PHYSICS))]
+        memo = _PHYSICS[context] = {}
+    elif len(memo) > _MAX_ROUTES:
+        memo.clear()
+    return memo
+
+
+def clear_physics_cache() -> None:
+    """Forget every route's physics (for benchmarks of a cold start)."""
+    _PHYSICS.clear()
 
 
 def _row(arch: Architecture, a: str, b: str, rank: int, route: Route, phys: PathPhysics) -> dict:

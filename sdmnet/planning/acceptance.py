@@ -4,8 +4,9 @@ A candidate is *met* when the upper bound of its confidence interval (independen
 Student t, :func:`sdmnet.sim.stats.ratio_interval`) is at or below the target; *missed* when the
 lower bound is above it; otherwise *undecided*, and replications are added in batches until the
 interval clears the target either way or the cap is reached.  This is the sequential procedure
-of Law, *Simulation Modeling and Analysis* (5th ed., section 9.4.1: add replications until the
-interval is narrow enough), with "narrow enough" read as "does not contain the target".  An
+of Law, *Simulation Modeling and Analysis* (5th ed., section 9.4.1, number from memory: add
+replications until the interval is narrow enough), with "narrow enough" read as "does not
+contain the target".  An
 interval that still holds the target at the cap is reported as ``undecided`` and is not accepted:
 the plan then carries more capacity, never less.
 

@@ -2,7 +2,7 @@
 
 The first-fit order (lowest channel, then lowest core group, then lowest fiber) is the model's
 rule (docs/model.md, section 3); first fit itself is common practice in spectrum assignment, no source.
-Positions in grants are ``fiber * groups + group`` and bits are ``1 << channel`` (the documented
+Positions in grants are ``group * fibers + fiber`` and bits are ``1 << channel`` (the documented
 grant format of sdmnet.sim.allocation).
 """
 
@@ -15,15 +15,17 @@ import pytest
 from sdmnet.sim.allocation import FiberState, UnitState
 
 
-def _units(grant):
-    """Grant triples as (cable, fiber, group, channel), given 2 groups per fiber."""
-    return [(h, pos // 2, pos % 2, bit.bit_length() - 1) for h, pos, bit in grant]
+def _units(state, grant):
+    """Grant triples as (cable, fiber, group, channel)."""
+    return [
+        (h, pos % state.fibers[h], pos // state.fibers[h], bit.bit_length() - 1) for h, pos, bit in grant
+    ]
 
 
 def test_first_fit_takes_lowest_channel_then_group_then_fiber():
     # One cable, 2 fibers x 2 groups x 2 channels: 8 units, taken one by one.
     state = UnitState([2], [2], [2], lane_change=True)
-    order = [_units(state.take([0], 1))[0][1:] for _ in range(8)]
+    order = [_units(state, state.take([0], 1))[0][1:] for _ in range(8)]
     # (fiber, group, channel): channel 0 everywhere first, group-major then fiber.
     assert order == [
         (0, 0, 0), (1, 0, 0), (0, 1, 0), (1, 1, 0),
@@ -36,7 +38,7 @@ def test_first_fit_takes_lowest_channel_then_group_then_fiber():
 def test_a_demand_of_several_units_takes_them_in_first_fit_order_on_every_hop():
     state = UnitState([1, 1], [2, 2], [3, 3], lane_change=True)
     grant = state.take([0, 1], 3)
-    units = _units(grant)
+    units = _units(state, grant)
     # Every unit on both hops, same channel end to end; the third unit moves to channel 1.
     assert [(h, g, w) for h, _f, g, w in units] == [(0, 0, 0), (1, 0, 0), (0, 1, 0), (1, 1, 0), (0, 0, 1), (1, 0, 1)]
     assert state.busy_units == [3, 3]
@@ -55,11 +57,11 @@ def test_lane_change_lets_a_unit_take_another_group_on_the_next_hop():
     for lane_change, expected_channel in ((True, 0), (False, 1)):
         state = UnitState([1, 1], [2, 2], [2, 2], lane_change=lane_change)
         first = state.take([0], 1)
-        assert _units(first) == [(0, 0, 0, 0)]
+        assert _units(state, first) == [(0, 0, 0, 0)]
         state.take([1], 2)  # groups 0 and 1 of channel 0 on cable 1 ...
         state.give_back([(1, 0, 1)])  # ... then group 0 freed again: only group 1 busy there
         grant = state.take([0, 1], 1)
-        units = _units(grant)
+        units = _units(state, grant)
         assert {w for *_x, w in units} == {expected_channel}
         if lane_change:
             # Group 1 on the first hop, group 0 on the second: a change of core at the switch.
@@ -73,7 +75,7 @@ def test_same_group_prefers_the_lowest_channel_over_the_lowest_group():
     state = UnitState([1], [2], [2], lane_change=False)
     state.take([0], 1)  # group 0, channel 0
     grant = state.take([0], 1)
-    assert _units(grant) == [(0, 0, 1, 0)]  # group 1 on channel 0 beats group 0 on channel 1
+    assert _units(state, grant) == [(0, 0, 1, 0)]  # group 1 on channel 0 beats group 0 on channel 1
 
 
 def test_release_is_exact_and_double_release_raises():
@@ -146,7 +148,7 @@ def _brute_force(path, fibers, groups, channels, taken, lane_change):
     def free_on(h, w, group_set):
         for g in group_set:
             for f in range(fibers[h]):
-                pos = f * groups[h] + g
+                pos = g * fibers[h] + f
                 if (h, pos, 1 << w) not in taken:
                     return pos
         return None

@@ -10,8 +10,12 @@ Two kinds of state:
 
 Both return a *grant* from ``take`` (None when the demand does not fit) that ``give_back``
 releases exactly.  A grant is a list of ``(cable, position, bit)`` triples: ``position`` is
-``fiber * groups + group`` (0 for fiber switching) and ``bit`` is ``1 << channel`` (``1 << fiber``
+``group * fibers + fiber`` (0 for fiber switching) and ``bit`` is ``1 << channel`` (``1 << fiber``
 for fiber switching).
+
+Memory is one bit per unit plus a few integers per cable: nothing is kept per position (no
+lookup tables over fiber pairs x core groups), so a cable of many fiber pairs costs its bits and
+no more (docs/model.md, limits).
 """
 
 from __future__ import annotations
@@ -42,8 +46,9 @@ class UnitState:
     -----
     First fit takes the lowest channel, then the lowest core group, then the lowest fiber
     (docs/model.md, section 3).  For each cable and channel one integer holds the free positions as
-    bits in that very order (bit ``group * fibers + fiber``), so the first free position on a
-    hop is its lowest set bit: no scan over positions.  Two summaries are kept current so that
+    bits in that very order (bit ``group * fibers + fiber``, which is also the position a grant
+    names), so the first free position on a hop is its lowest set bit: no scan over positions,
+    and no table from bits to positions.  Two summaries are kept current so that
     the path search never looks at positions either: ``any_free[cable]``, the channels free at
     some position (used with lane change), and ``group_free[cable][group]``, the channels free
     in that core group on some fiber (used without).
@@ -63,17 +68,11 @@ class UnitState:
         ncables = len(self.fibers)
         fulls = [(1 << w) - 1 if f * g else 0 for w, f, g in zip(self.channels, self.fibers, self.groups)]
         self.full = max(fulls, default=0)
-        # Per cable: all positions free, as order bits.
+        # Per cable: all positions free, as bits (bit i is position i = group * fibers + fiber).
         self._all_slots = [(1 << (f * g)) - 1 for f, g in zip(self.fibers, self.groups)]
         self._slots: list[list[int]] = [[m] * w for m, w in zip(self._all_slots, self.channels)]
-        # Order index i = group * fibers + fiber  <->  position fiber * groups + group.
-        self._pos_of = [[(i % f) * g + i // f for i in range(f * g)] for f, g in zip(self.fibers, self.groups)]
-        self._bit_of_pos: list[list[int]] = [[0] * (f * g) for f, g in zip(self.fibers, self.groups)]
-        for h in range(ncables):
-            for i, pos in enumerate(self._pos_of[h]):
-                self._bit_of_pos[h][pos] = 1 << i
-        # Order bits of each core group (a contiguous run of `fibers` bits).
-        self._group_bits = [[((1 << f) - 1) << (c * f) for c in range(g)] for f, g in zip(self.fibers, self.groups)]
+        # The bits of core group 0 (its `fibers` lowest bits); group c's are these shifted by c * fibers.
+        self._group0_bits = [(1 << f) - 1 for f in self.fibers]
         self.any_free = list(fulls)
         self.group_free = [[m] * g for m, g in zip(fulls, self.groups)]
         self.busy_units = [0] * ncables
@@ -92,7 +91,7 @@ class UnitState:
         return self._take_same_group(cables, n)
 
     def _take_lane_change(self, cables: Sequence[int], n: int) -> Grant | None:
-        any_free, slots, pos_of, busy = self.any_free, self._slots, self._pos_of, self.busy_units
+        any_free, slots, busy = self.any_free, self._slots, self.busy_units
         grant: Grant = []
         for _ in range(n):
             avail = self.full
@@ -112,13 +111,13 @@ class UnitState:
                 row[w] = free
                 if not free:
                     any_free[h] ^= bit
-                grant.append((h, pos_of[h][low.bit_length() - 1], bit))
+                grant.append((h, low.bit_length() - 1, bit))
                 busy[h] += 1
         return grant
 
     def _take_same_group(self, cables: Sequence[int], n: int) -> Grant | None:
         any_free, group_free, slots, busy = self.any_free, self.group_free, self._slots, self.busy_units
-        pos_of, group_bits = self._pos_of, self._group_bits
+        fibers, group0_bits = self.fibers, self._group0_bits
         groups = range(self.groups[cables[0]])
         grant: Grant = []
         for _ in range(n):
@@ -144,7 +143,7 @@ class UnitState:
             for h in cables:
                 row = slots[h]
                 free = row[w]
-                in_group = group_bits[h][c]
+                in_group = group0_bits[h] << (c * fibers[h])
                 low = free & in_group
                 low &= -low
                 free ^= low
@@ -153,7 +152,7 @@ class UnitState:
                     group_free[h][c] ^= bit
                 if not free:
                     any_free[h] ^= bit
-                grant.append((h, pos_of[h][low.bit_length() - 1], bit))
+                grant.append((h, low.bit_length() - 1, bit))
                 busy[h] += 1
         return grant
 
@@ -171,11 +170,11 @@ class UnitState:
             self._give_back_same_group(grant)
 
     def _give_back_lane_change(self, grant: Grant) -> None:
-        slots, bit_of_pos, any_free, busy = self._slots, self._bit_of_pos, self.any_free, self.busy_units
+        slots, any_free, busy = self._slots, self.any_free, self.busy_units
         for h, pos, bit in grant:
             row = slots[h]
             w = bit.bit_length() - 1
-            own = bit_of_pos[h][pos]
+            own = 1 << pos
             if row[w] & own:
                 raise AssertionError(f"unit released twice: cable {h} position {pos} bit {bit}")
             row[w] |= own
@@ -185,8 +184,9 @@ class UnitState:
     def _give_back_same_group(self, grant: Grant) -> None:
         # The positions are released as with lane change; only the group summaries differ.
         self._give_back_lane_change(grant)
+        group_free, fibers = self.group_free, self.fibers
         for h, pos, bit in grant:
-            self.group_free[h][pos % self.groups[h]] |= bit
+            group_free[h][pos // fibers[h]] |= bit
 
     def is_empty(self) -> bool:
         """True when every unit of every cable is free."""

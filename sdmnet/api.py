@@ -8,9 +8,13 @@ files -> model (:mod:`sdmnet.inputs.loaders`) -> engine (:mod:`sdmnet.sim.engine
 
 from __future__ import annotations
 
+import functools
+import inspect
 import time
-from dataclasses import dataclass
+from collections.abc import Callable
+from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any, TypeVar
 
 import pandas as pd
 
@@ -21,7 +25,7 @@ from .equipment.resources import InstalledResources, installed_resources, module
 from .errors import InputError
 from .inputs.model import Scenario
 from .output.headline import load_point_text, plan_text
-from .output.manifest import ensure_out_dir, run_manifest, software_versions
+from .output.manifest import ensure_out_dir, out_dir_lock, run_manifest, software_versions
 from .output.tables import (
     add_module_columns,
     cable_table,
@@ -33,6 +37,7 @@ from .output.tables import (
     write_table,
 )
 from .sim.engine import ReplicationRecord, prepare
+from .sim.memory import format_bytes, require_memory
 from .sim.precision import more_replications, run_length, run_length_text
 from .sim.progress import ProgressBar
 from .sim.stats import PointSummary, summarize_point
@@ -58,9 +63,26 @@ __all__ = [
 ]
 
 
+_F = TypeVar("_F", bound=Callable[..., Any])
+
+
+def _one_writer(func: _F) -> _F:
+    """Hold the call's ``out_dir`` for the call: another process writing into it is refused
+    (:func:`sdmnet.output.manifest.out_dir_lock`)."""
+    signature = inspect.signature(func)
+
+    @functools.wraps(func)
+    def held(*args: Any, **kwargs: Any) -> Any:
+        with out_dir_lock(signature.bind(*args, **kwargs).arguments["out_dir"]):
+            return func(*args, **kwargs)
+
+    return held  # type: ignore[return-value]
+
+
 @dataclass
 class SimulationResult:
-    """What :func:`simulate` produced (the same tables it wrote)."""
+    """What :func:`simulate` produced (the same tables it wrote), and what the user should know
+    about it (``notes``: one sentence each)."""
 
     out_dir: Path
     summary: pd.DataFrame
@@ -70,6 +92,7 @@ class SimulationResult:
     cables: pd.DataFrame
     points: list[PointSummary]
     wall_time_s: float
+    notes: list[str] = field(default_factory=list)
 
 
 def summarize_records(
@@ -88,6 +111,7 @@ def summarize_records(
     return points, resources
 
 
+@_one_writer
 def simulate(
     scenario: Scenario,
     out_dir: Path | str,
@@ -97,6 +121,7 @@ def simulate(
     resume: bool = False,
     progress: bool = True,
     figures: bool = True,
+    memory_limit: float | None = None,
 ) -> SimulationResult:
     """Simulate every architecture at every load point and write the results.
 
@@ -122,15 +147,20 @@ def simulate(
         A progress bar on stderr (on a terminal; elsewhere one summary line at the end).
     figures : bool
         Write ``report.html`` and its figures (each drawn once, by :func:`report`).
+    memory_limit : float, optional
+        Bytes the run may use (:func:`sdmnet.sim.memory.require_memory`); default: what the
+        machine has available; ``math.inf``: no check.
 
     Raises
     ------
     InputError
-        Bad input or an unwritable folder.
+        Bad input, a run too large for the memory, an unwritable folder, or a folder another
+        run is writing into.
     RunInterrupted
         SIGINT/SIGTERM; finished tasks are on disk.
     """
     started = time.perf_counter()
+    memory, room = require_memory(scenario, "simulate", jobs=jobs, limit=memory_limit)
     out = ensure_out_dir(out_dir)
     # Refuse an impossible architecture before any work starts.
     setups = {a.name: prepare(scenario, a) for a in scenario.architectures}
@@ -150,7 +180,16 @@ def simulate(
     prices = {name: unit_prices(scenario, module) for name, module in modules.items()}
     summary = summary_table(scenario, points, setups, resources, prices)
     summary = add_module_columns(summary, modules)
-    estimate_net, _ = estimate_scenario(scenario)
+    notes = []
+    if memory.optional is not None and memory.optional.nbytes > room:
+        # The simulation fits but the estimate beside it does not: leave its columns empty.
+        estimate_net = pd.DataFrame(columns=["architecture", "load_erlang", "blocking", "bandwidth_blocking"])
+        notes.append(
+            f"the analytic estimate is left out (its columns are empty): {memory.optional.what} would need "
+            f"about {format_bytes(memory.optional.nbytes)} of memory"
+        )
+    else:
+        estimate_net, _ = estimate_scenario(scenario)
     summary = attach_estimate(summary, estimate_net, setups)
     classes = class_table(points, setups)
     pairs = pair_table(points, setups)
@@ -170,15 +209,19 @@ def simulate(
     write_json(manifest, out / "run.json")
     if figures:
         report(out)
-    return SimulationResult(out, summary, classes, pairs, sites, cables, points, wall)
+    return SimulationResult(out, summary, classes, pairs, sites, cables, points, wall, notes)
 
 
-def estimate(scenario: Scenario, out_dir: Path | str) -> tuple[pd.DataFrame, pd.DataFrame]:
+@_one_writer
+def estimate(
+    scenario: Scenario, out_dir: Path | str, *, memory_limit: float | None = None
+) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Analytic estimate, no simulation: writes ``estimate.csv`` and ``estimate_pairs.csv``.
 
     Erlang B / Kaufman-Roberts per cable, coupled by the Erlang fixed point (docs/estimate.md).
     """
     started = time.perf_counter()
+    require_memory(scenario, "estimate", limit=memory_limit)
     out = ensure_out_dir(out_dir)
     network, pairs = estimate_scenario(scenario)
     write_table(network, out / "estimate.csv")
@@ -187,11 +230,13 @@ def estimate(scenario: Scenario, out_dir: Path | str) -> tuple[pd.DataFrame, pd.
     return network, pairs
 
 
-def paths(scenario: Scenario, out_dir: Path | str) -> pd.DataFrame:
+@_one_writer
+def paths(scenario: Scenario, out_dir: Path | str, *, memory_limit: float | None = None) -> pd.DataFrame:
     """Candidate paths with their physics and feasibility: writes ``paths.csv``."""
     from .optics.pathtable import path_table
 
     started = time.perf_counter()
+    require_memory(scenario, "paths", limit=memory_limit)
     out = ensure_out_dir(out_dir)
     table = path_table(scenario)
     write_table(table, out / "paths.csv")
@@ -199,6 +244,7 @@ def paths(scenario: Scenario, out_dir: Path | str) -> pd.DataFrame:
     return table
 
 
+@_one_writer
 def plan(
     scenario: Scenario,
     out_dir: Path | str,
@@ -207,23 +253,35 @@ def plan(
     progress: bool = True,
     cable_cuts: bool = False,
     figures: bool = True,
+    memory_limit: float | None = None,
 ):
     """Fewest fiber pairs per cable meeting the target blocking: writes ``plan.csv``, its
     totals, run.json (:func:`sdmnet.planning.run.run_plan`) and, with ``figures``,
     ``report.html`` and its figures."""
     from .planning.run import run_plan
 
+    require_memory(scenario, "plan", jobs=jobs, limit=memory_limit)
     result = run_plan(scenario, out_dir, jobs=jobs, progress=progress, cable_cuts=cable_cuts)
     if figures:
         report(out_dir)
     return result
 
 
-def forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True, figures: bool = True):
+@_one_writer
+def forecast(
+    scenario: Scenario,
+    out_dir: Path | str,
+    *,
+    jobs: int = 1,
+    progress: bool = True,
+    figures: bool = True,
+    memory_limit: float | None = None,
+):
     """The plan year by year under growth: writes ``forecast.csv``, its figures and run.json
     (:func:`sdmnet.planning.forecasting.run_forecast`) and, with ``figures``, ``report.html``."""
     from .planning.forecasting import run_forecast
 
+    require_memory(scenario, "forecast", jobs=jobs, limit=memory_limit)
     result = run_forecast(scenario, out_dir, jobs=jobs, progress=progress)
     if figures:
         report(out_dir)
@@ -243,13 +301,13 @@ def report(folder: Path | str, out_dir: Path | str | None = None) -> Path:
     path = Path(folder)
     if not path.is_dir():
         raise InputError(path, "report", "no such results folder")
-    if out_dir is not None and Path(out_dir).resolve() != path.resolve():
-        target = ensure_out_dir(out_dir)
-        for item in sorted(path.iterdir()):
-            if item.is_file() and item.suffix in (".csv", ".json", ".txt", ".parquet"):
-                shutil.copy2(item, target / item.name)
-        path = target
-    return write_report(path)
+    elsewhere = out_dir is not None and Path(out_dir).resolve() != path.resolve()
+    with out_dir_lock(out_dir if elsewhere else path) as target:
+        if elsewhere:
+            for item in sorted(path.iterdir()):
+                if item.is_file() and item.suffix in (".csv", ".json", ".txt", ".parquet"):
+                    shutil.copy2(item, target / item.name)
+        return write_report(target)
 
 
 def starter(folder: Path | str) -> list[Path]:
@@ -270,10 +328,12 @@ class DemoResult:
     wall_time_s: float
 
 
+@_one_writer
 def demo(scenario: Scenario, out_dir: Path | str, *, jobs: int = 2, progress: bool = True) -> DemoResult:
     """The bundled scenario end to end into one folder: paths, estimate, simulation,
     plan, forecast and the report."""
     started = time.perf_counter()
+    require_memory(scenario, "demo", jobs=jobs)
     out = ensure_out_dir(out_dir)
     paths(scenario, out)
     estimate(scenario, out)

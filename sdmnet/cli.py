@@ -26,6 +26,26 @@ def _positive_int(text: str) -> int:
     return value
 
 
+#: Most local worker processes: more than any machine has cores (each holds its own engine state).
+MAX_JOBS = 256
+
+
+def _jobs(text: str) -> int:
+    value = _positive_int(text)
+    if value > MAX_JOBS:
+        raise argparse.ArgumentTypeError(f"must be at most {MAX_JOBS}, got {value}")
+    return value
+
+
+def _memory_size(text: str) -> float:
+    from .sim.memory import parse_size
+
+    try:
+        return parse_size(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(str(exc)) from None
+
+
 def _int(text: str) -> int:
     try:
         return int(text)
@@ -73,16 +93,18 @@ def cmd_check(args: argparse.Namespace) -> int:
     for file, where, what in warnings_for(checked):
         print(f"warning: {file}: {where}: {what}", file=sys.stderr)
     if args.out:  # only on request: checking a file should not litter results/
-        from .output.manifest import ensure_out_dir
+        from .output.manifest import out_dir_lock
+        from .output.tables import write_text
 
-        (ensure_out_dir(args.out) / "check.txt").write_text(text + "\n")
+        with out_dir_lock(args.out) as out:
+            write_text(text + "\n", out / "check.txt")
     return EXIT_OK
 
 
 def cmd_simulate(args: argparse.Namespace) -> int:
+    scenario = _load_scenario(args)  # first: a bad file is refused before the heavier imports
     from . import api
 
-    scenario = _load_scenario(args)
     result = api.simulate(
         scenario,
         _out(args, "simulate"),
@@ -90,14 +112,27 @@ def cmd_simulate(args: argparse.Namespace) -> int:
         scheduler=args.scheduler,
         resume=args.resume,
         progress=not args.quiet,
+        memory_limit=args.memory_limit,
     )
     print(api.load_point_text(result.summary))
     for line in api.run_length_text(scenario.run, result.points):
         print(line)
     _warn_unrouted(result.summary)
     _warn_unsteady(result.summary)
+    _note_intervals(scenario)
+    for note in result.notes:
+        sys.stderr.write(f"note: {note}\n")
     print(f"results in {result.out_dir}/ ({result.wall_time_s:.1f} s), report.html")
     return EXIT_OK
+
+
+def _note_intervals(scenario) -> None:
+    # Blank interval columns are no estimate of precision: say why they are blank.
+    if scenario.run.replications < 2:
+        sys.stderr.write(
+            "note: one replication per point, so no confidence interval can be made (the blocking_ci "
+            "columns are empty); give --replications 2 or more\n"
+        )
 
 
 def _warn_unrouted(summary) -> None:
@@ -124,11 +159,11 @@ def _warn_unsteady(summary) -> None:
 
 
 def cmd_estimate(args: argparse.Namespace) -> int:
+    scenario = _load_scenario(args)
     from . import api
 
-    scenario = _load_scenario(args)
     out = _out(args, "estimate")
-    network, _pairs = api.estimate(scenario, out)
+    network, _pairs = api.estimate(scenario, out, memory_limit=args.memory_limit)
     cols = ["architecture", "load_erlang", "blocking", "bandwidth_blocking"]
     print(network[cols].to_string(index=False, float_format=lambda x: f"{x:.4g}"))
     print(f"results in {out}/")
@@ -136,11 +171,11 @@ def cmd_estimate(args: argparse.Namespace) -> int:
 
 
 def cmd_paths(args: argparse.Namespace) -> int:
+    scenario = _load_scenario(args)
     from . import api
 
-    scenario = _load_scenario(args)
     out = _out(args, "paths")
-    table = api.paths(scenario, out)
+    table = api.paths(scenario, out, memory_limit=args.memory_limit)
     feasible = int(table["feasible"].sum())
     print(f"{len(table)} candidate paths, {feasible} feasible, {len(table) - feasible} not")
     for (arch, a, b), part in table.groupby(["architecture", "a", "b"], sort=False):
@@ -151,18 +186,22 @@ def cmd_paths(args: argparse.Namespace) -> int:
 
 
 def cmd_plan_or_forecast(args: argparse.Namespace) -> int:
+    scenario = _load_scenario(args)
     from . import api
 
-    scenario = _load_scenario(args)
     out = _out(args, args.verb)
+    limit = args.memory_limit
     if args.verb == "plan":
         from .planning.run import summary_lines
 
-        result = api.plan(scenario, out, jobs=args.jobs, progress=not args.quiet, cable_cuts=args.cuts)
+        result = api.plan(
+            scenario, out, jobs=args.jobs, progress=not args.quiet, cable_cuts=args.cuts, memory_limit=limit
+        )
         print("\n".join(summary_lines(result.plans)))
         print(api.plan_text(result.totals))
     else:
-        api.forecast(scenario, out, jobs=args.jobs, progress=not args.quiet)
+        api.forecast(scenario, out, jobs=args.jobs, progress=not args.quiet, memory_limit=limit)
+    _note_intervals(scenario)
     print(f"results in {out}/ (report.html)")
     return EXIT_OK
 
@@ -209,11 +248,21 @@ def _add_out(p: argparse.ArgumentParser) -> None:
     p.add_argument("-o", "--out", metavar="DIR", help="output folder (default: under results/)")
 
 
+def _add_memory(p: argparse.ArgumentParser) -> None:
+    p.add_argument(
+        "--memory-limit",
+        metavar="SIZE",
+        type=_memory_size,
+        help="refuse a run estimated to need more memory than SIZE (8G, 500M; default: what the machine "
+        "has available now; none: never refuse)",
+    )
+
+
 def _add_run_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--seed", type=_int, help="override the scenario's seed")
     p.add_argument("--requests", type=_positive_int, help="measured requests per replication")
     p.add_argument("--replications", type=_positive_int, help="replications per point")
-    p.add_argument("--jobs", type=_positive_int, default=1, help="local worker processes (default 1)")
+    p.add_argument("--jobs", type=_jobs, default=1, help="local worker processes (default 1)")
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
 
 
@@ -232,6 +281,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = verbs.add_parser("simulate", help="simulate every architecture at every load point")
     p.add_argument("scenario", metavar="SCENARIO")
     _add_out(p)
+    _add_memory(p)
     _add_run_options(p)
     p.add_argument("--scheduler", metavar="ADDRESS", help="run the sweep on a Dask scheduler (tcp://host:port)")
     p.add_argument("--resume", action="store_true", help="keep finished tasks in the output folder, run the rest")
@@ -240,16 +290,19 @@ def build_parser() -> argparse.ArgumentParser:
     p = verbs.add_parser("estimate", help="analytic blocking estimate (Erlang B / Kaufman-Roberts / fixed point)")
     p.add_argument("scenario", metavar="SCENARIO")
     _add_out(p)
+    _add_memory(p)
     p.set_defaults(func=cmd_estimate)
 
     p = verbs.add_parser("paths", help="candidate paths with their physics and feasibility")
     p.add_argument("scenario", metavar="SCENARIO")
     _add_out(p)
+    _add_memory(p)
     p.set_defaults(func=cmd_paths)
 
     p = verbs.add_parser("plan", help="fiber pairs per cable that meet the target blocking")
     p.add_argument("scenario", metavar="SCENARIO")
     _add_out(p)
+    _add_memory(p)
     _add_run_options(p)
     p.add_argument("--cuts", action="store_true", help="also simulate every single cable cut on the plan")
     p.set_defaults(func=cmd_plan_or_forecast)
@@ -257,6 +310,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = verbs.add_parser("forecast", help="the plan year by year under demand growth")
     p.add_argument("scenario", metavar="SCENARIO")
     _add_out(p)
+    _add_memory(p)
     _add_run_options(p)
     p.set_defaults(func=cmd_plan_or_forecast)
 
@@ -267,7 +321,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = verbs.add_parser("demo", help="run the bundled scenario end to end")
     _add_out(p)
-    p.add_argument("--jobs", type=_positive_int, default=2, help="local worker processes (default 2)")
+    p.add_argument("--jobs", type=_jobs, default=2, help="local worker processes (default 2)")
     p.add_argument("--quiet", action="store_true", help="no progress on stderr")
     p.set_defaults(func=cmd_demo)
 

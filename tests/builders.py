@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import math
+from typing import Any
+
 from sdmnet.inputs.model import (
     Architecture,
     Cable,
@@ -76,3 +79,55 @@ def shortest_routes(sc: Scenario, arch: Architecture) -> dict[tuple[str, str], l
     """Route finder without physics: the k shortest routes of every pair."""
     topo = sc.topology_for(arch)
     return {p: k_shortest_routes(topo, *p, sc.run.k_paths) for p in datacenter_pairs(topo)}
+
+
+# TOML text for tests that write files (the tiny writer the fuzz tests need)
+
+
+def toml_value(value: Any) -> str:
+    """A TOML literal for ``value`` (the tiny writer the fuzz test needs)."""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, int):
+        return str(value)
+    if isinstance(value, float):
+        if math.isnan(value):
+            return "nan"
+        if math.isinf(value):
+            return "inf" if value > 0 else "-inf"
+        return repr(value)
+    if isinstance(value, str):
+        return '"' + "".join(c if c.isprintable() and c not in '"\\' else toml_escape(c) for c in value) + '"'
+    if isinstance(value, list):
+        return "[" + ", ".join(toml_value(v) for v in value) + "]"
+    if isinstance(value, dict):
+        return "{" + ", ".join(f"{toml_key(k)} = {toml_value(v)}" for k, v in value.items()) + "}"
+    raise TypeError(type(value))
+
+
+def toml_escape(char: str) -> str:
+    code = ord(char)
+    return f"\\u{code:04x}" if code <= 0xFFFF else f"\\U{code:08x}"
+
+
+def toml_key(key: str) -> str:
+    return toml_value(key)
+
+
+def toml_document(data: dict[str, Any]) -> str:
+    """``data`` as TOML: scalars and inline tables at the top, then tables and arrays of tables."""
+    lines = []
+    for key, value in data.items():
+        if not isinstance(value, dict) and not (
+            isinstance(value, list) and value and all(isinstance(v, dict) for v in value)
+        ):
+            lines.append(f"{toml_key(key)} = {toml_value(value)}")
+    for key, value in data.items():
+        if isinstance(value, dict):
+            lines.append(f"[{toml_key(key)}]")
+            lines += [f"{toml_key(k)} = {toml_value(v)}" for k, v in value.items()]
+        elif isinstance(value, list) and value and all(isinstance(v, dict) for v in value):
+            for item in value:
+                lines.append(f"[[{toml_key(key)}]]")
+                lines += [f"{toml_key(k)} = {toml_value(v)}" for k, v in item.items()]
+    return "\n".join(lines) + "\n"

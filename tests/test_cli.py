@@ -6,6 +6,7 @@ import os
 import signal
 import subprocess
 import sys
+import time
 from pathlib import Path
 
 import pytest
@@ -13,6 +14,7 @@ import pytest
 from sdmnet import api
 from sdmnet.cli import main
 from sdmnet.inputs.loaders import load_scenario
+from sdmnet.output.manifest import LOCK_FILE
 from sdmnet.sim.sweep import TaskStore
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -163,3 +165,70 @@ def test_interrupted_then_resumed_sweep_equals_uninterrupted(tmp_path, signum, m
     monkeypatch.undo()
     api.simulate(load_scenario(scen), broken, jobs=2, resume=True, progress=False, figures=False)
     assert (broken / "summary.csv").read_bytes() == (whole / "summary.csv").read_bytes()
+
+
+@pytest.mark.slow
+def test_a_second_writer_into_the_same_folder_is_refused_and_a_crash_leaves_resume_working(tmp_path):
+    # Two real runs into one folder: the second must not mix its results with the first's.
+    scen = _scenario(tmp_path, requests=2_000_000, replications=3)
+    out = tmp_path / "out"
+    first = subprocess.Popen(
+        [sys.executable, "-m", "sdmnet", "simulate", str(scen), "-o", str(out), "--quiet"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
+    lock = out / LOCK_FILE
+    deadline = time.monotonic() + 120
+    while time.monotonic() < deadline and first.poll() is None:
+        if lock.exists() and lock.read_text().strip() == str(first.pid):
+            break
+        time.sleep(0.05)
+    assert first.poll() is None, "the first run ended before the second could start"
+
+    second = _run("simulate", str(scen), "-o", str(out), "--seed", "2", "--quiet")
+    assert second.returncode == 2
+    lines = second.stderr.strip().splitlines()
+    assert lines == [
+        f"error: {out}: --out: another sdmnet run (process {first.pid}) is writing into this folder; "
+        "wait for it, or choose another --out"
+    ]
+
+    # A crash of the first run leaves its lock file behind; it must not block --resume.
+    first.send_signal(signal.SIGKILL)
+    first.communicate(timeout=60)
+    assert lock.exists()
+    resumed = _run("simulate", str(scen), "-o", str(out), "--resume", "--requests", "500", "--quiet")
+    assert resumed.returncode == 0, resumed.stderr
+    assert (out / "summary.csv").exists() and (out / "report.html").exists()
+
+
+def test_one_replication_says_there_is_no_interval(tmp_path, capsys):
+    scen = _scenario(tmp_path, requests=300, replications=1)
+    out = tmp_path / "one"
+    assert main(["simulate", str(scen), "-o", str(out), "--quiet"]) == 0
+    err = capsys.readouterr().err
+    assert "note: one replication per point, so no confidence interval can be made" in err
+    html = (out / "report.html").read_text()
+    assert "No confidence interval</strong> for 4 of the 4 rows of summary.csv" in html
+    assert "nan %" not in html
+
+
+def test_too_many_jobs_and_a_bad_memory_limit_are_refused(tmp_path):
+    scen = str(_scenario(tmp_path))
+    for option, value, what in (("--jobs", "100000", "must be at most 256"), ("--memory-limit", "lots", "not a size")):
+        proc = _run("simulate", scen, option, value)
+        assert proc.returncode == 2
+        lines = proc.stderr.strip().splitlines()
+        assert len(lines) == 1 and lines[0].startswith("error: <command line>:") and what in lines[0], proc.stderr
+
+
+def test_a_run_larger_than_the_memory_limit_is_refused_before_it_starts(tmp_path, capsys):
+    scen = _scenario(tmp_path, requests=300, replications=2)
+    out = tmp_path / "small"
+    assert main(["simulate", str(scen), "-o", str(out), "--quiet", "--memory-limit", "100K"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and err[0].startswith(f"error: {scen}: ")
+    assert "more than the --memory-limit given (0.102 MB)" in err[0] and "--memory-limit SIZE (or none)" in err[0]
+    assert not (out / "summary.csv").exists()
+    assert main(["simulate", str(scen), "-o", str(out), "--quiet", "--memory-limit", "none"]) == 0

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import copy
 import dataclasses
-import math
 import xml.etree.ElementTree as ET
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -17,6 +16,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from builders import toml_document
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -365,6 +365,47 @@ BAD_TOPOLOGIES = [
         "edge[A,B].length_km: must be > 0, got -5",
         load="t.graphml",
     ),
+    # Upper bounds (docs/model.md, section 6): far above any real network.
+    Bad(
+        "too-many-fiber-pairs",
+        topo("fiber_pairs = 2", "fiber_pairs = 1000000000"),
+        "cables[0].fiber_pairs: must be <= 10000, got 1000000000: the largest cables hold a few thousand fibers "
+        "(from memory)",
+    ),
+    Bad(
+        "too-many-channels",
+        topo("channels = 8", "channels = 10000000"),
+        "fiber_types.weak4.channels: must be <= 4096, got 10000000: a C+L grid holds a few hundred channels "
+        "(from memory)",
+    ),
+    Bad(
+        "too-many-cores",
+        topo("cores = 4", "cores = 1000"),
+        "fiber_types.weak4.cores: must be <= 256, got 1000: multicore fibers hold tens of cores (from memory)",
+    ),
+    Bad(
+        "too-many-sites",
+        topo("[[sites]]", '[[sites]]\nid = "X"\nrole = "hub"\n' * 1001 + "[[sites]]"),
+        "sites: 1004 sites, more than the 1000 allowed: far more sites than any real network plans at once",
+    ),
+    Bad(
+        "too-long-a-cable",
+        topo("length_km = 10.0", "length_km = 1e6"),
+        "cables[0].length_km: must be <= 100000, got 1000000: twice around the Earth",
+    ),
+    Bad(
+        "too-large-a-number",
+        topo("attenuation_db_per_km = 0.2", "attenuation_db_per_km = 1e300"),
+        "fiber_types.weak4.attenuation_db_per_km: must be between -1e+12 and 1e+12, got number 1e+300: "
+        "no figure of a network needs more",
+    ),
+    Bad(
+        "too-long-a-name",
+        topo('id = "A"', 'id = "' + "A" * 5000 + '"'),
+        "sites[0].id: 5000 characters, more than the 4096 allowed: no name or file path needs more characters",
+    ),
+    Bad("too-large-a-file", {"topo.toml": b"#" * (64 * 2**20 + 1)}, "file: file larger than 64 MiB: no input of "
+        "sdmnet needs that much"),
 ]
 
 BAD_SCENARIOS = [
@@ -548,8 +589,8 @@ BAD_SCENARIOS = [
     ),
     Bad(
         "forecast-overflow",
-        scenario_with("growth_per_year = 0.3", "growth_per_year = 1e300"),
-        "forecast.growth_per_year: growth 1e+300 per year over 2 years is too large to compute",
+        scenario_with("years = 2\ngrowth_per_year = 0.3", "years = 100\ngrowth_per_year = 1e12"),
+        "forecast.growth_per_year: growth 1e+12 per year over 100 years is too large to compute",
     ),
     Bad(
         "forecast-lane-roadmap-length",
@@ -653,6 +694,34 @@ BAD_SCENARIOS = [
         "overflow-outside-unit",
         scenario_with("lane_gbps = 100", "lane_gbps = 100\noverflow = 0"),
         "transceiver.overflow: must be between 0 and 1 (exclusive), got 0",
+    ),
+    Bad(
+        "size-beyond-any-demand",
+        scenario_with('sizes_gbps = { "100" = 0.75, "400" = 0.25 }', 'sizes_gbps = { "1e30" = 1.0 }'),
+        "traffic.sizes_gbps.1e30: size must be <= 1000000 Gb/s, got '1e30': 1 Pb/s, far above any single demand",
+    ),
+    Bad(
+        "load-beyond-any-network",
+        scenario_with("load_erlang = [5.0, 10]", "load_erlang = [5.0, 1e9]"),
+        "traffic.load_erlang[1]: must be <= 10000000, got 1000000000: ten million demands in progress at once, far "
+        "above any network",
+    ),
+    Bad(
+        "growth-beyond-any-network",
+        scenario_with("years = 2\ngrowth_per_year = 0.3", "years = 100\ngrowth_per_year = 1.0"),
+        "forecast.growth_per_year: year 20 would offer 10485760 Erlang, more than the 10000000 allowed: ten million "
+        "demands in progress at once, far above any network",
+    ),
+    Bad(
+        "too-many-replications",
+        scenario_with("replications = 2", "replications = 1000000"),
+        "run.replications: must be <= 10000, got 1000000: intervals narrow with the square root: more replications "
+        "add little",
+    ),
+    Bad(
+        "holding-time-unit-too-large",
+        scenario_with("mean_holding = 1.0", "mean_holding = 1e9"),
+        "traffic.mean_holding: must be <= 1e+06, got 1000000000: the time unit is too large",
     ),
 ]
 
@@ -829,55 +898,6 @@ def test_bundled_files_load(path: Path) -> None:
 
 # ----------------------------------------------------------------------------------------------
 # Fuzzing: nothing but InputError escapes
-
-
-def toml_value(value: Any) -> str:
-    """A TOML literal for ``value`` (the tiny writer the fuzz test needs)."""
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if isinstance(value, int):
-        return str(value)
-    if isinstance(value, float):
-        if math.isnan(value):
-            return "nan"
-        if math.isinf(value):
-            return "inf" if value > 0 else "-inf"
-        return repr(value)
-    if isinstance(value, str):
-        return '"' + "".join(c if c.isprintable() and c not in '"\\' else toml_escape(c) for c in value) + '"'
-    if isinstance(value, list):
-        return "[" + ", ".join(toml_value(v) for v in value) + "]"
-    if isinstance(value, dict):
-        return "{" + ", ".join(f"{toml_key(k)} = {toml_value(v)}" for k, v in value.items()) + "}"
-    raise TypeError(type(value))
-
-
-def toml_escape(char: str) -> str:
-    code = ord(char)
-    return f"\\u{code:04x}" if code <= 0xFFFF else f"\\U{code:08x}"
-
-
-def toml_key(key: str) -> str:
-    return toml_value(key)
-
-
-def toml_document(data: dict[str, Any]) -> str:
-    """``data`` as TOML: scalars and inline tables at the top, then tables and arrays of tables."""
-    lines = []
-    for key, value in data.items():
-        if not isinstance(value, dict) and not (
-            isinstance(value, list) and value and all(isinstance(v, dict) for v in value)
-        ):
-            lines.append(f"{toml_key(key)} = {toml_value(value)}")
-    for key, value in data.items():
-        if isinstance(value, dict):
-            lines.append(f"[{toml_key(key)}]")
-            lines += [f"{toml_key(k)} = {toml_value(v)}" for k, v in value.items()]
-        elif isinstance(value, list) and value and all(isinstance(v, dict) for v in value):
-            for item in value:
-                lines.append(f"[[{toml_key(key)}]]")
-                lines += [f"{toml_key(k)} = {toml_value(v)}" for k, v in item.items()]
-    return "\n".join(lines) + "\n"
 
 
 def test_toml_writer_round_trips() -> None:

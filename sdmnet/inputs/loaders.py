@@ -20,8 +20,10 @@ Choices this module makes (the file contract is in docs/model.md, section 5):
 - GraphML attribute values declared as strings are converted when a number or boolean is
   expected (graph editors often write every attribute as a string); TOML is taken as typed.
 - ``group`` is refused on an architecture whose switching is not ``fractional-joint``.
-- Integers must fit in 64 bits (the engine counts in numpy int64); a forecast spans at most
-  :data:`MAX_FORECAST_YEARS` years.
+- Integers must fit in 64 bits (the engine counts in numpy int64).
+- Sizes and counts have upper bounds far above any real network (:data:`MAX`, listed with the
+  reason for each in docs/model.md, section 6), so that no file can make a run exhaust the
+  machine; a file is read only up to :data:`MAX_FILE_BYTES`.
 - Columns in positions count from 1 (TOML and XML alike); control characters in keys and
   values are escaped so that every error stays on one line.
 - A missing or unreadable file named by a scenario (``topology``, ``traffic.matrix``) is
@@ -100,8 +102,53 @@ SCENARIO_KEYS = (
 TRAFFIC_KEYS = ("pattern", "load_erlang", "mean_holding", "sizes_gbps", "matrix")
 UNIT_COST_KEYS = ("fiber_pair_km", "transceiver_lane", "switch_port")
 SIZE_PROBABILITY_TOLERANCE = 1e-6
-# Every forecast year is a full dimensioning run, so the horizon is kept to planning scale.
-MAX_FORECAST_YEARS = 100
+
+#: Upper bounds of what a file may ask for, with the reason each gives in its error message.
+#: Each lies far above any real network, and low enough that no single value can exhaust the
+#: machine (combinations are left to the memory estimate of :mod:`sdmnet.sim.memory`).  Figures
+#: recalled without a source say so.  docs/model.md, section 6, lists them.
+MAX: dict[str, tuple[float, str]] = {
+    "fiber_pairs": (10_000, "the largest cables hold a few thousand fibers (from memory)"),
+    "cores": (256, "multicore fibers hold tens of cores (from memory)"),
+    "channels": (4_096, "a C+L grid holds a few hundred channels (from memory)"),
+    "group": (256, "no fiber has more cores"),
+    "sites": (1_000, "far more sites than any real network plans at once"),
+    "cables": (5_000, "far more cables than any real network plans at once"),
+    "fiber_types": (100, "far more fiber types than any study compares"),
+    "architectures": (100, "far more architectures than any study compares"),
+    "transceivers": (100, "far more transceiver classes than any study compares"),
+    "load_points": (1_000, "far more load points than a curve needs"),
+    "size_classes": (100, "far more demand sizes than any traffic model uses"),
+    "size_gbps": (1e6, "1 Pb/s, far above any single demand"),
+    "load_erlang": (1e7, "ten million demands in progress at once, far above any network"),
+    "lane_gbps": (1e5, "100 Tb/s, far above any transceiver lane"),
+    "requests": (10**9, "an hour of simulation per replication or more"),
+    "warmup": (10**9, "an hour of simulation per replication or more"),
+    "replications": (10_000, "intervals narrow with the square root: more replications add little"),
+    "k_paths": (100, "far more candidate routes than any demand needs"),
+    "years": (100, "every forecast year is a full dimensioning run"),
+    "text": (4_096, "no name or file path needs more characters"),
+}
+#: Smallest lane rate (Gb/s): with it, a demand needs at most size_gbps / 1 units.
+MIN_LANE_GBPS = 1.0
+#: Smallest load (Erlang).
+MIN_LOAD_ERLANG = 1e-6
+#: Range of the mean holding time (it sets the time unit): with loads in range, the arrival
+#: rate stays within 1e-12..1e13 per time unit, and arrival times stay finite.
+HOLDING_RANGE = (1e-6, 1e6)
+#: Largest magnitude of any number read (the fields below have tighter bounds): sums and
+#: products of a few such numbers stay finite.
+MAX_MAGNITUDE = 1e12
+MAGNITUDE_WHY = "no figure of a network needs more"
+# Physical bounds: far outside any real component, tight enough that lengths over spacings,
+# spreads times symbol rates and dB sums stay finite numbers.
+_EARTH = "twice around the Earth"
+_DB = "no component comes near"
+_XT = "crosstalk below -200 dB is no crosstalk"
+#: Largest file read (bytes): a topology of the largest allowed size takes a few MB.
+MAX_FILE_BYTES = 64 * 2**20
+# Kept for callers of the old name.
+MAX_FORECAST_YEARS = int(MAX["years"][0])
 
 
 # ----------------------------------------------------------------------------------------------
@@ -246,12 +293,15 @@ def _as_float(doc: _Doc, where: str, value: Any) -> float:
         doc.fail(where, f"number too large, got {_show(raw)}")
     if not math.isfinite(number):
         doc.fail(where, f"expected a finite number, got {_show(raw)}")
+    if abs(number) > MAX_MAGNITUDE:
+        doc.fail(where, f"must be between -{MAX_MAGNITUDE:g} and {MAX_MAGNITUDE:g}, got {_show(raw)}: {MAGNITUDE_WHY}")
     return number
 
 
 def _as_str(doc: _Doc, where: str, value: Any) -> str:
     if not isinstance(value, str):
         doc.fail(where, f"expected a string, got {_show(value)}")
+    _count_within(doc, where, len(value), "text", "characters")
     return value
 
 
@@ -319,16 +369,42 @@ def _greater(bound: float) -> Limit:
     return lambda v: None if v > bound else f"must be > {bound:g}, got {_number(v)}"
 
 
-def _at_least(bound: float) -> Limit:
-    return lambda v: None if v >= bound else f"must be >= {bound:g}, got {_number(v)}"
+def _at_least(bound: float, why: str = "") -> Limit:
+    reason = f": {why}" if why else ""
+    return lambda v: None if v >= bound else f"must be >= {bound:g}, got {_number(v)}{reason}"
 
 
-def _at_most(bound: float) -> Limit:
-    return lambda v: None if v <= bound else f"must be <= {bound:g}, got {_number(v)}"
+def _at_most(bound: float, why: str = "") -> Limit:
+    reason = f": {why}" if why else ""
+    return lambda v: None if v <= bound else f"must be <= {bound:g}, got {_number(v)}{reason}"
 
 
 def _below(bound: float) -> Limit:
     return lambda v: None if v < bound else f"must be < {bound:g}, got {_number(v)}"
+
+
+def _up_to(what: str) -> Limit:
+    """At most ``MAX[what]``, saying why in the message."""
+    bound, why = MAX[what]
+    return lambda v: None if v <= bound else f"must be <= {_number(bound)}, got {_number(v)}: {why}"
+
+
+def _all_of(*limits: Limit) -> Limit:
+    def check(value: Any) -> str | None:
+        for limit in limits:
+            problem = limit(value)
+            if problem:
+                return problem
+        return None
+
+    return check
+
+
+def _count_within(doc: _Doc, where: str, count: int, what: str, unit: str) -> None:
+    """Refuse ``count`` items (of ``MAX[what]``) beyond the bound."""
+    bound, why = MAX[what]
+    if count > bound:
+        doc.fail(where, f"{count} {unit}, more than the {_number(bound)} allowed: {why}")
 
 
 def _inside_unit(v: float) -> str | None:
@@ -350,69 +426,75 @@ def _each(limit: Limit) -> Limit:
 # Limits per (class, field).  A field not listed here (say one added to TransceiverSpec later)
 # is checked for its type and, for numbers, finiteness only.
 LIMITS: dict[tuple[type, str], Limit] = {
-    (FiberType, "cores"): _at_least(1),
-    (FiberType, "coupled_group"): _at_least(1),
-    (FiberType, "channels"): _at_least(1),
-    (FiberType, "attenuation_db_per_km"): _at_least(0),
-    (FiberType, "gd_spread_ps_per_sqrt_km"): _at_least(0),
-    (FiberType, "dgd_ps_per_km"): _at_least(0),
-    (FiberType, "crosstalk_db_per_km"): _below(0),
-    (FiberType, "mdl_db_per_sqrt_km"): _at_least(0),
+    (FiberType, "cores"): _all_of(_at_least(1), _up_to("cores")),
+    (FiberType, "coupled_group"): _all_of(_at_least(1), _up_to("cores")),
+    (FiberType, "channels"): _all_of(_at_least(1), _up_to("channels")),
+    (FiberType, "attenuation_db_per_km"): _all_of(_at_least(0), _at_most(100, _DB)),
+    (FiberType, "gd_spread_ps_per_sqrt_km"): _all_of(_at_least(0), _at_most(1e4, "no fiber comes near")),
+    (FiberType, "dgd_ps_per_km"): _all_of(_at_least(0), _at_most(1e4, "no fiber comes near")),
+    (FiberType, "crosstalk_db_per_km"): _all_of(_below(0), _at_least(-200, _XT)),
+    (FiberType, "mdl_db_per_sqrt_km"): _all_of(_at_least(0), _at_most(100, _DB)),
     (FiberType, "effective_area_um2"): _greater(0),
     (FiberType, "dispersion_ps_per_nm_km"): _at_least(0),
     (FiberType, "cladding_um"): _greater(0),
-    (FiberType, "group_crosstalk_db_per_km"): _below(0),
+    (FiberType, "group_crosstalk_db_per_km"): _all_of(_below(0), _at_least(-200, _XT)),
     (Site, "traffic_weight"): _at_least(0),
-    (Cable, "length_km"): _greater(0),
-    (Cable, "fiber_pairs"): _at_least(1),
-    (TransceiverSpec, "lane_gbps"): _greater(0),
-    (TransceiverSpec, "symbol_rate_gbaud"): _greater(0),
-    (TransceiverSpec, "samples_per_symbol"): _greater(0),
+    (Site, "x_km"): _all_of(_at_least(-1e5, _EARTH), _at_most(1e5, _EARTH)),
+    (Site, "y_km"): _all_of(_at_least(-1e5, _EARTH), _at_most(1e5, _EARTH)),
+    (Cable, "length_km"): _all_of(
+        _greater(0), _at_least(1e-3, "a cable is at least a metre long"), _at_most(1e5, _EARTH)
+    ),
+    (Cable, "fiber_pairs"): _all_of(_at_least(1), _up_to("fiber_pairs")),
+    (TransceiverSpec, "lane_gbps"): _all_of(_greater(0), _at_least(MIN_LANE_GBPS), _up_to("lane_gbps")),
+    (TransceiverSpec, "symbol_rate_gbaud"): _all_of(_greater(0), _at_most(1e4, "no transceiver comes near")),
+    (TransceiverSpec, "samples_per_symbol"): _all_of(_greater(0), _at_most(100, "DSPs take one or two")),
     (TransceiverSpec, "reach_km"): _greater(0),
     (TransceiverSpec, "power_budget_db"): _greater(0),
     (TransceiverSpec, "max_mimo_taps"): _at_least(1),
-    (TransceiverSpec, "crosstalk_limit_db"): _below(0),
+    (TransceiverSpec, "crosstalk_limit_db"): _all_of(_below(0), _at_least(-200, _XT)),
     (TransceiverSpec, "mdl_limit_db"): _at_least(0),
     (TransceiverSpec, "module_power_w"): _at_least(0),
     (TransceiverSpec, "mimo_pj_per_cmul"): _at_least(0),
     (TransceiverSpec, "switch_insertion_loss_db"): _at_least(0),
     (TransceiverSpec, "connector_loss_db"): _at_least(0),
     (TransceiverSpec, "splice_loss_db"): _at_least(0),
-    (TransceiverSpec, "splice_spacing_km"): _greater(0),
+    (TransceiverSpec, "splice_spacing_km"): _all_of(_greater(0), _at_least(0.1, "cable sections are kilometres long")),
     (TransceiverSpec, "mimo_base_taps"): _at_least(0),
-    (TransceiverSpec, "tap_margin"): _greater(0),
+    (TransceiverSpec, "tap_margin"): _all_of(_greater(0), _at_most(100, "a few spreads is the practice")),
     (TransceiverSpec, "overflow"): _inside_unit,
-    (RunSpec, "requests"): _at_least(1),
-    (RunSpec, "warmup"): lambda v: None if isinstance(v, str) else _at_least(0)(v),
+    (RunSpec, "requests"): _all_of(_at_least(1), _up_to("requests")),
+    (RunSpec, "warmup"): lambda v: None if isinstance(v, str) else _all_of(_at_least(0), _up_to("warmup"))(v),
     (RunSpec, "precision"): _inside_unit,
-    (RunSpec, "max_replications"): _at_least(2),
-    (RunSpec, "replications"): _at_least(1),
-    (RunSpec, "k_paths"): _at_least(1),
+    (RunSpec, "max_replications"): _all_of(_at_least(2), _up_to("replications")),
+    (RunSpec, "replications"): _all_of(_at_least(1), _up_to("replications")),
+    (RunSpec, "k_paths"): _all_of(_at_least(1), _up_to("k_paths")),
     (RunSpec, "confidence"): _inside_unit,
-    (Architecture, "group"): _at_least(1),
+    (Architecture, "group"): _all_of(_at_least(1), _up_to("group")),
     (PlanSpec, "target_blocking"): _inside_unit,
-    (PlanSpec, "max_fiber_pairs"): _at_least(1),
+    (PlanSpec, "max_fiber_pairs"): _all_of(_at_least(1), _up_to("fiber_pairs")),
     (PlanSpec, "unit_costs"): _each(_at_least(0)),
     (PlanSpec, "confidence"): _inside_unit,
     (PlanSpec, "pair_target"): _inside_unit,
     (PlanSpec, "cut_target"): _inside_unit,
-    (LineSpec, "span_km"): _greater(0),
-    (LineSpec, "amplifier_nf_db"): _at_least(0),
+    (LineSpec, "span_km"): _all_of(
+        _greater(0), _at_least(1, "amplifier spans are tens of kilometres"), _at_most(1e5, _EARTH)
+    ),
+    (LineSpec, "amplifier_nf_db"): _all_of(_at_least(0), _at_most(100, _DB)),
     (LineSpec, "margin_db"): _at_least(0),
     (LineSpec, "fifo_loss_db"): _at_least(0),
-    (LineSpec, "fifo_crosstalk_db"): _below(0),
+    (LineSpec, "fifo_crosstalk_db"): _all_of(_below(0), _at_least(-200, _XT)),
     (LineSpec, "wss_pass_db"): _at_least(0),
     (LineSpec, "fiber_xc_db"): _at_least(0),
     (LineSpec, "band_ghz"): _greater(0),
-    (TransceiverClass, "lane_gbps"): _greater(0),
-    (TransceiverClass, "symbol_rate_gbaud"): _greater(0),
+    (TransceiverClass, "lane_gbps"): _all_of(_greater(0), _at_least(MIN_LANE_GBPS), _up_to("lane_gbps")),
+    (TransceiverClass, "symbol_rate_gbaud"): _all_of(_greater(0), _at_most(1e4, "no transceiver comes near")),
     (TransceiverClass, "reach_km"): _greater(0),
     (TransceiverClass, "power_w"): _at_least(0),
     (TransceiverClass, "cost"): _at_least(0),
-    (ForecastSpec, "years"): lambda v: _at_least(1)(v) or _at_most(MAX_FORECAST_YEARS)(v),
+    (ForecastSpec, "years"): _all_of(_at_least(1), _up_to("years")),
     (ForecastSpec, "growth_per_year"): _greater(-1),
     (ForecastSpec, "factors"): _each(_greater(0)),
-    (ForecastSpec, "lane_gbps_by_year"): _each(_greater(0)),
+    (ForecastSpec, "lane_gbps_by_year"): _each(_all_of(_greater(0), _at_least(MIN_LANE_GBPS), _up_to("lane_gbps"))),
     (ForecastSpec, "site_growth"): _each(_greater(-1)),
     (ForecastSpec, "growth_band"): _each(_greater(-1)),
 }
@@ -471,13 +553,17 @@ def _read_bytes(path: Path, owner: _Doc | None = None, key: str = "file") -> byt
     try:
         if path.is_dir():
             doc.fail(key, f"is a directory, not a file{named}")
-        return path.read_bytes()
+        with path.open("rb") as handle:
+            data = handle.read(MAX_FILE_BYTES + 1)
     except FileNotFoundError:
         doc.fail(key, f"file not found{named}")
     except OSError as err:
         doc.fail(key, f"cannot read the file{named}: {err.strerror or err}")
     except ValueError:  # a NUL character in the name
         doc.fail(key, f"invalid file name{named}")
+    if len(data) > MAX_FILE_BYTES:
+        doc.fail(key, f"file larger than {MAX_FILE_BYTES // 2**20} MiB{named}: no input of sdmnet needs that much")
+    return data
 
 
 def _decode(doc: _Doc, data: bytes) -> str:
@@ -574,6 +660,9 @@ def _build_topology(doc: _Doc, raw: _RawTopology, source: Path) -> Topology:
 
     if not raw.fiber_types:
         doc.fail("fiber_types", "no fiber types: define at least one [fiber_types.NAME]")
+    _count_within(doc, "fiber_types", len(raw.fiber_types), "fiber_types", "fiber types")
+    _count_within(doc, "sites", len(raw.sites), "sites", "sites")
+    _count_within(doc, "cables", len(raw.cables), "cables", "cables")
     fiber_types = {n: _fiber_type(doc, n, w, t) for n, w, t in raw.fiber_types}
 
     sites: list[Site] = []
@@ -809,16 +898,23 @@ def _traffic(doc: _Doc, table: Mapping[str, Any], scenario_file: Path, topology:
     if isinstance(raw_loads, list):
         if not raw_loads:
             doc.fail("traffic.load_erlang", "empty list: give at least one load")
+        _count_within(doc, "traffic.load_erlang", len(raw_loads), "load_points", "load points")
         given = [(f"traffic.load_erlang[{i}]", v) for i, v in enumerate(raw_loads)]
     else:
         given = [("traffic.load_erlang", raw_loads)]
-    positive = _greater(0)
-    loads = tuple(_within(doc, w, _as_float(doc, w, v), positive) for w, v in given)
+    load_range = _all_of(
+        _greater(0), _at_least(MIN_LOAD_ERLANG, "a load that small offers no demand"), _up_to("load_erlang")
+    )
+    loads = tuple(_within(doc, w, _as_float(doc, w, v), load_range) for w, v in given)
 
     values: dict[str, Any] = {"pattern": pattern, "loads_erlang": loads}
     if "mean_holding" in table:
         holding = _as_float(doc, "traffic.mean_holding", table["mean_holding"])
-        values["mean_holding"] = _within(doc, "traffic.mean_holding", holding, positive)
+        low, high = HOLDING_RANGE
+        in_range = _all_of(
+            _greater(0), _at_least(low, "the time unit is too small"), _at_most(high, "the time unit is too large")
+        )
+        values["mean_holding"] = _within(doc, "traffic.mean_holding", holding, in_range)
     if "sizes_gbps" in table:
         values["sizes_gbps"] = _sizes(doc, table["sizes_gbps"])
 
@@ -838,6 +934,10 @@ def _traffic(doc: _Doc, table: Mapping[str, Any], scenario_file: Path, topology:
                 "traffic.pattern",
                 "gravity pattern gives no traffic: fewer than two datacenters have traffic_weight > 0",
             )
+        first, second = sorted(weights)[-2:][::-1]
+        if first * second == 0:  # the product of two tiny weights underflows
+            doc.fail("traffic.pattern", "gravity pattern gives no traffic: the traffic weights are too small to "
+                     "multiply (scale them up: only their ratios matter)")
     return TrafficSpec(**values)
 
 
@@ -846,16 +946,20 @@ def _sizes(doc: _Doc, value: Any) -> tuple[tuple[float, float], ...]:
     table = _table(doc, where, value)
     if not table:
         doc.fail(where, "empty table: give at least one size = probability")
+    _count_within(doc, where, len(table), "size_classes", "sizes")
+    largest, why = MAX["size_gbps"]
     by_size: dict[float, str] = {}
     pairs = []
     for key, prob_value in table.items():
-        key_where = f"{where}.{key}"
+        key_where = f"{where}.{_shorten(key)}"
         try:
             size = float(key)
         except ValueError:
-            doc.fail(key_where, f"size '{key}' is not a number of Gb/s")
+            doc.fail(key_where, f"size '{_shorten(key)}' is not a number of Gb/s")
         if not math.isfinite(size) or size <= 0:
-            doc.fail(key_where, f"size must be a finite number > 0, got '{key}'")
+            doc.fail(key_where, f"size must be a finite number > 0, got '{_shorten(key)}'")
+        if size > largest:
+            doc.fail(key_where, f"size must be <= {_number(largest)} Gb/s, got '{_shorten(key)}': {why}")
         if size in by_size:
             doc.fail(key_where, f'size {size:g} Gb/s is given twice (also "{by_size[size]}")')
         by_size[size] = key
@@ -924,6 +1028,8 @@ def _matrix_row(
         doc.fail(where, f"weight must be a finite number, got '{_shorten(weight_text)}'")
     if weight < 0:
         doc.fail(where, f"weight must be >= 0, got {_shorten(weight_text)}")
+    if weight > MAX_MAGNITUDE:
+        doc.fail(where, f"weight must be <= {MAX_MAGNITUDE:g}, got {_shorten(weight_text)}: {MAGNITUDE_WHY}")
     pair = frozenset((a, b))
     if pair in first_line:
         doc.fail(where, f"pair {a},{b} is already given on line {first_line[pair]}")
@@ -935,6 +1041,7 @@ def _architectures(doc: _Doc, value: Any, topology: Topology) -> tuple[Architect
     tables = _list_of_tables(doc, "architectures", value)
     if not tables:
         doc.fail("architectures", "no architectures: add at least one [[architectures]]")
+    _count_within(doc, "architectures", len(tables), "architectures", "architectures")
     result = []
     first_where: dict[str, str] = {}
     for i, table in enumerate(tables):
@@ -1008,6 +1115,7 @@ def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
             if site not in datacenters:
                 doc.fail(f"forecast.site_growth.{site}", f"no datacenter '{site}' in the topology"
                          f"{_did_you_mean(site, datacenters)}")  # fmt: skip
+        _check_forecast_loads(doc, forecast, traffic)
     line = _section(doc, data, "line", LineSpec)
     transceivers = _transceiver_classes(doc, data["transceivers"]) if "transceivers" in data else ()
     _check_channel_slots(doc, topology, architectures, line, transceiver, transceivers)
@@ -1068,6 +1176,7 @@ def _transceiver_classes(doc: _Doc, value: Any) -> tuple[TransceiverClass, ...]:
     tables = _list_of_tables(doc, "transceivers", value)
     if not tables:
         doc.fail("transceivers", "empty: define at least one [[transceivers]] class, or leave the key out")
+    _count_within(doc, "transceivers", len(tables), "transceivers", "transceiver classes")
     classes: list[TransceiverClass] = []
     first_where: dict[str, str] = {}
     for i, table in enumerate(tables):
@@ -1141,6 +1250,19 @@ def _forecast(doc: _Doc, value: Any) -> ForecastSpec:
     for site, rate in forecast.site_growth.items():
         _forecast_growth_fits(doc, f"forecast.site_growth.{site}", rate, forecast.years)
     return forecast
+
+
+def _check_forecast_loads(doc: _Doc, forecast: ForecastSpec, traffic: TrafficSpec) -> None:
+    """Refuse growth that takes a load point beyond the largest load allowed."""
+    largest, why = MAX["load_erlang"]
+    for year in range(1, forecast.years + 1):
+        load = max(traffic.loads_erlang) * forecast.peak_factor(year)
+        if load > largest:
+            key = f"forecast.factors[{year - 1}]" if forecast.factors else "forecast.growth_per_year"
+            if forecast.growth_band or forecast.site_growth:
+                key = "forecast"
+            doc.fail(key, f"year {year} would offer {_number(load)} Erlang, more than the {_number(largest)} "
+                          f"allowed: {why}")
 
 
 def overridable_keys() -> list[str]:

@@ -531,6 +531,14 @@ class ForecastSpec:
             return self.factors[year - 1]
         return (1.0 + (self.growth_per_year if growth is None else growth)) ** year
 
+    def peak_factor(self, year: int) -> float:
+        """An upper bound of the total load multiplier of ``year``: the largest of the growth cases
+        (``growth_band`` included) times the fastest site growth (a pair grows by the geometric
+        mean of its ends', so never faster)."""
+        cases = [None, *self.growth_band]
+        sites = max((1.0 + g) ** year for g in [0.0, *self.site_growth.values()])
+        return max(self.factor(year, growth) for growth in cases) * sites
+
     def lane_gbps(self, year: int, base: float) -> float:
         """Lane rate in ``year`` (``base``, the ``[transceiver]`` rate, in year 0 or without a roadmap)."""
         if year == 0 or not self.lane_gbps_by_year:

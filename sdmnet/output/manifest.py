@@ -1,10 +1,13 @@
-"""What every verb writes besides its tables: the output folder check and run.json."""
+"""What every verb writes besides its tables: the output folder check, its lock, and run.json."""
 
 from __future__ import annotations
 
+import errno
+import os
 import platform
 import sys
-from collections.abc import Mapping
+from collections.abc import Iterator, Mapping
+from contextlib import contextmanager
 from dataclasses import asdict
 from importlib import metadata
 from pathlib import Path
@@ -15,7 +18,18 @@ from ..inputs.model import Scenario
 from ..sim.engine import EngineSetup, prepare
 from ..sim.sweep import scenario_fingerprint
 
-__all__ = ["software_versions", "ensure_out_dir", "run_manifest"]
+__all__ = ["software_versions", "ensure_out_dir", "out_dir_lock", "LOCK_FILE", "run_manifest"]
+
+try:
+    import fcntl
+except ImportError:  # pragma: no cover - not POSIX: folders are not locked
+    fcntl = None  # type: ignore[assignment]
+
+#: The lock file in every output folder (kept: removing it would let two writers lock two files).
+LOCK_FILE = ".sdmnet.lock"
+
+# Folders this process holds locked: resolved path -> the lock file's descriptor.
+_held: dict[Path, int] = {}
 
 
 def software_versions() -> dict[str, str]:
@@ -40,6 +54,52 @@ def ensure_out_dir(out_dir: Path | str) -> Path:
     except OSError as exc:
         raise InputError(path, "--out", f"cannot write the output folder ({exc.strerror or exc})") from None
     return path
+
+
+@contextmanager
+def out_dir_lock(out_dir: Path | str) -> Iterator[Path]:
+    """Hold ``out_dir`` for this process alone while the block runs: one writer per results folder.
+
+    Creates the folder (:func:`ensure_out_dir`) and takes an exclusive ``flock`` on its
+    :data:`LOCK_FILE`, which holds the writer's process id.  The operating system releases the
+    lock when the holder exits in any way, a crash or ``kill -9`` included, so a lock file left
+    behind never blocks a later run (``--resume`` after a crash works).  Nested use by the same
+    process (a demo running every verb into one folder) holds the lock once.
+
+    Raises
+    ------
+    InputError
+        When another process holds the folder, naming it and that process.
+    """
+    path = ensure_out_dir(out_dir)
+    key = path.resolve()
+    if key in _held or fcntl is None:  # held by an outer block of this process already
+        yield path
+        return
+    lock = key / LOCK_FILE
+    try:
+        fd = os.open(lock, os.O_RDWR | os.O_CREAT, 0o666)
+    except OSError as exc:
+        raise InputError(path, "--out", f"cannot open the folder's lock file ({exc.strerror or exc})") from None
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError as exc:
+        holder = os.pread(fd, 32, 0).decode(errors="replace").strip()
+        os.close(fd)
+        if exc.errno not in (errno.EWOULDBLOCK, errno.EAGAIN, errno.EACCES):
+            raise InputError(path, "--out", f"cannot lock the folder ({exc.strerror or exc})") from None
+        who = f" (process {holder})" if holder.isdigit() else ""
+        raise InputError(
+            path, "--out", f"another sdmnet run{who} is writing into this folder; wait for it, or choose another --out"
+        ) from None
+    os.ftruncate(fd, 0)
+    os.pwrite(fd, f"{os.getpid()}\n".encode(), 0)
+    _held[key] = fd
+    try:
+        yield path
+    finally:
+        del _held[key]
+        os.close(fd)  # releases the lock
 
 
 def run_manifest(

@@ -10,7 +10,7 @@ from __future__ import annotations
 import json
 import os
 import tempfile
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 import pandas as pd
@@ -35,6 +35,7 @@ __all__ = [
     "write_table",
     "write_json",
     "write_text",
+    "atomic_write",
 ]
 
 # docs/model.md, section 5 names the first columns; the rest are ours.
@@ -271,8 +272,9 @@ def _default_mode() -> int:
     return 0o666 & ~umask
 
 
-def _atomic_write(path: Path, write) -> None:
-    """Write through a temporary file and rename, so a reader never sees half a file."""
+def atomic_write(path: Path, write: Callable[[str], object]) -> None:
+    """Call ``write(temporary path)``, then rename the temporary to ``path``: a reader, or a run
+    stopped at any point, never sees half a file."""
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=".tmp-", suffix=path.suffix)
     os.close(fd)
@@ -288,12 +290,12 @@ def _atomic_write(path: Path, write) -> None:
 def write_table(frame: pd.DataFrame, path: Path) -> Path:
     """Write ``frame`` as CSV (and Parquet beside it when pyarrow is importable)."""
     path = Path(path)
-    _atomic_write(path, lambda tmp: frame.to_csv(tmp, index=False, float_format=FLOAT_FORMAT))
+    atomic_write(path, lambda tmp: frame.to_csv(tmp, index=False, float_format=FLOAT_FORMAT))
     try:
         import pyarrow  # noqa: F401
     except ImportError:
         return path
-    _atomic_write(path.with_suffix(".parquet"), lambda tmp: frame.to_parquet(tmp, index=False))
+    atomic_write(path.with_suffix(".parquet"), lambda tmp: frame.to_parquet(tmp, index=False))
     return path
 
 
@@ -305,7 +307,7 @@ def write_text(text: str, path: Path) -> Path:
         with open(tmp, "w", encoding="utf-8", newline="\n") as fh:
             fh.write(text)
 
-    _atomic_write(path, _write)
+    atomic_write(path, _write)
     return path
 
 
@@ -318,5 +320,5 @@ def write_json(data: dict, path: Path) -> Path:
             json.dump(data, fh, indent=2, sort_keys=True, default=str)
             fh.write("\n")
 
-    _atomic_write(path, _write)
+    atomic_write(path, _write)
     return path

@@ -32,7 +32,7 @@ from ..network.routing import Route
 from ..network.traffic import pair_weights
 from ..optics.pathtable import feasible_routes
 from ..output.figures import forecast_figure
-from ..output.tables import write_table
+from ..output.tables import write_table, write_text
 from ..sim.engine import EngineSetup, prepare
 from ..sim.progress import ProgressBar
 from .candidates import DEFAULT_MAX_CANDIDATES
@@ -342,7 +342,7 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
         write_table(pd.DataFrame(totals), out / "forecast_totals.csv")
         write_table(pd.DataFrame(cands), out / "forecast_candidates.csv")
         write_table(pd.DataFrame(band), out / "forecast_band.csv")
-        (out / "forecast_notes.txt").write_text(forecast_notes(all_years))
+        write_text(forecast_notes(all_years), out / "forecast_notes.txt")
     bar.close()
     totals_frame = pd.DataFrame(totals)
     band_frame = pd.DataFrame(band)

@@ -27,6 +27,8 @@ import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
 from matplotlib.colors import LinearSegmentedColormap  # noqa: E402
 
+from ..tables import atomic_write  # noqa: E402
+
 # Okabe-Ito colours; markers and dashes differ too.
 STYLE_CYCLE = [
     ("#0072B2", "o", "-"),
@@ -129,12 +131,18 @@ def footnote(fig: plt.Figure, text: str) -> None:
 
 
 def save_figure(fig: plt.Figure, path: Path) -> Path:
-    """Save as PNG with fixed metadata so identical figures give identical bytes."""
+    """Save as PNG with fixed metadata so identical figures give identical bytes; written whole
+    (through a temporary file) or not at all."""
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    with plt.style.context(["default", LOOK]):
-        fig.savefig(path, dpi=DPI, bbox_inches="tight", metadata={"Software": None})
-    plt.close(fig)
+
+    def draw(tmp: str) -> None:
+        fig.savefig(tmp, format="png", dpi=DPI, bbox_inches="tight", metadata={"Software": None})
+
+    try:
+        with plt.style.context(["default", LOOK]):
+            atomic_write(path, draw)
+    finally:
+        plt.close(fig)
     return path
 
 

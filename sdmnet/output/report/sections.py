@@ -79,7 +79,8 @@ def _findings(summary: pd.DataFrame) -> dict[str, Any] | None:
     interval = None
     if len(best_rows) == 1 and {"blocking_ci_low", "blocking_ci_high"} <= set(top.columns):
         row = best_rows.iloc[0]
-        interval = (percent_text(row["blocking_ci_low"]), percent_text(row["blocking_ci_high"]))
+        if pd.notna(row["blocking_ci_low"]) and pd.notna(row["blocking_ci_high"]):
+            interval = (percent_text(row["blocking_ci_low"]), percent_text(row["blocking_ci_high"]))
     return {
         "at": _loads_text(top) if top["load_erlang"].nunique() == 1 else None,
         "best": percent_text(best),
@@ -90,6 +91,20 @@ def _findings(summary: pd.DataFrame) -> dict[str, Any] | None:
         # Equipment is ranked only where blocking is alike (output/headline.py).
         "alike": load_point_headline(summary),
     }
+
+
+def _no_interval(frame: pd.DataFrame, file: str) -> dict[str, Any] | None:
+    """Why the interval columns of ``file`` are empty, when some are: a blank is no precision."""
+    if "blocking_ci_low" not in frame.columns or not frame["blocking_ci_low"].isna().any():
+        return None
+    blank = frame[frame["blocking_ci_low"].isna()]
+    if "replications" in frame.columns and (blank["replications"] < 2).all():
+        why = "they rest on a single replication, and an interval needs two or more"
+    elif "replications" in frame.columns:
+        why = "too few of their replications offered any request"
+    else:
+        why = "the run had too few replications (an interval needs two or more)"
+    return {"file": file, "blank": len(blank), "rows": len(frame), "why": why}
 
 
 def _unsteady(summary: pd.DataFrame) -> list[str]:
@@ -165,6 +180,7 @@ def simulation(res: ResultFolder) -> Section | None:
             "skipped": skipped,
             "figures": drawn,
             "unsteady": _unsteady(summary),
+            "no_interval": _no_interval(summary, "summary.csv"),
             "table": table(summary, SUMMARY_SHOWN, caption="Results per architecture and load (summary.csv)"),
         },
     )
@@ -322,6 +338,7 @@ def plan(res: ResultFolder) -> Section | None:
     if planned is None and totals is None:
         return None
     data: dict[str, Any] = {"skipped": None, "figure": None, "pivot": None, "table": None, "totals": None}
+    data["no_interval"] = _no_interval(planned, "plan.csv") if planned is not None else None
     if planned is not None:
         data["skipped"] = skip_note("plan.csv", planned, ["architecture", "cable", "fiber_pairs"])
         if data["skipped"] is None:

@@ -259,9 +259,14 @@ VALUES = st.one_of(
 )
 
 
-def _mutated(target: tuple[str, tuple[Any, ...]], value: Any) -> tuple[dict[str, Any], dict[str, Any]]:
+def _mutated(
+    target: tuple[str, tuple[Any, ...]],
+    value: Any,
+    topology: dict[str, Any] = TOPOLOGY,
+    scenario: dict[str, Any] = SCENARIO,
+) -> tuple[dict[str, Any], dict[str, Any]]:
     """Copies of both files with ``value`` set at ``target`` (or the key dropped)."""
-    files = {"topology": copy.deepcopy(TOPOLOGY), "scenario": copy.deepcopy(SCENARIO)}
+    files = {"topology": copy.deepcopy(topology), "scenario": copy.deepcopy(scenario)}
     which, path = target
     if path[-1] == SIZE_KEY:
         sizes = files["scenario"][SCENARIO_TRAFFIC]["sizes_gbps"]
@@ -293,13 +298,14 @@ def _drop_none(value: Any) -> Any:
 def run_cli(argv: list[str]) -> tuple[int, str, str]:
     """``sdmnet ARGV`` in this process: exit status, stdout, stderr (warnings land in stderr)."""
     out, err = io.StringIO(), io.StringIO()
-    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err), warnings.catch_warnings():
+    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err), warnings.catch_warnings(record=True) as seen:
         warnings.simplefilter("always")
         try:
             status = main(argv)
         except SystemExit as exc:  # argparse's own exit
             status = exc.code if isinstance(exc.code, int) else 1
-    return status, out.getvalue(), err.getvalue()
+    shown = "".join(warnings.formatwarning(w.message, w.category, w.filename, w.lineno) for w in seen)
+    return status, out.getvalue(), err.getvalue() + shown
 
 
 def assert_clean_outcome(status: int, stderr: str) -> None:
@@ -377,9 +383,9 @@ def test_the_base_files_run() -> None:
     assert status == 0, err
 
 
-# Examples per field: 3 in the "ci" profile (100 // 33), 30 in "long".
+# Examples per field: 2 in the "ci" profile (100 // 50), 20 in "long".
 PER_FIELD = settings(
-    max_examples=max(3, settings.default.max_examples // 33),
+    max_examples=max(2, settings.default.max_examples // 50),
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture],
 )
 TARGET_IDS = [f"{file}:{'.'.join(map(str, path))}" for file, path in TARGETS]
@@ -401,3 +407,38 @@ def test_every_extreme_value_in_every_field(stub_figures: None, target: tuple[st
         topology, scenario = _mutated(target, value)
         status, err = simulate_files(topology, scenario)
         assert_clean_outcome(status, err)
+
+
+# Extreme values the loader accepts that reach the figures and the report, set together: the
+# largest drawing extent, the longest and oddest names, one replication, a cable of the most
+# fiber pairs, the shortest cable, the largest weight; then the smallest and largest loads.
+REACHING_FIGURES = {
+    "extents-names-sizes": [
+        (("topology", ("sites", 1, "x_km")), 1e5),
+        (("topology", ("sites", 2, "y_km")), -1e5),
+        (("topology", ("sites", 1, "id")), "\u00e9\u2603\u202e" + "B" * 61),
+        (("scenario", ("architectures", 0, "name")), "x" * 64),
+        (("scenario", ("run", "replications")), 1),
+        (("topology", ("cables", 0, "fiber_pairs")), 10_000),
+        (("topology", ("cables", 1, "length_km")), 1e-3),
+        (("topology", ("sites", 0, "traffic_weight")), 1e12),
+    ],
+    "loads": [(("scenario", ("traffic", "load_erlang")), [1e-6, 5e6])],
+}
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("case", list(REACHING_FIGURES))
+def test_accepted_extremes_with_real_figures(case: str) -> None:
+    topology, scenario = TOPOLOGY, SCENARIO
+    for target, value in REACHING_FIGURES[case]:
+        file, path = target
+        topology, scenario = _mutated((file, path), value, topology, scenario)
+        if path[:3] == ("sites", 1, "id"):  # the cables name the site too
+            for cable in topology["cables"]:
+                for end in ("a", "b"):
+                    if cable[end] == "B":
+                        cable[end] = value
+    status, err = simulate_files(topology, scenario)
+    assert status == 0, err
+    assert_clean_outcome(status, err)

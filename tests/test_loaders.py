@@ -401,8 +401,8 @@ BAD_TOPOLOGIES = [
     ),
     Bad(
         "too-long-a-name",
-        topo('id = "A"', 'id = "' + "A" * 5000 + '"'),
-        "sites[0].id: 5000 characters, more than the 4096 allowed: no name or file path needs more characters",
+        topo('id = "A"', 'id = "' + "A" * 100 + '"'),
+        "sites[0].id: 100 characters, more than the 64 allowed: names label every table and figure",
     ),
     Bad("too-large-a-file", {"topo.toml": b"#" * (64 * 2**20 + 1)}, "file: file larger than 64 MiB: no input of "
         "sdmnet needs that much"),
@@ -717,6 +717,11 @@ BAD_SCENARIOS = [
         scenario_with("replications = 2", "replications = 1000000"),
         "run.replications: must be <= 10000, got 1000000: intervals narrow with the square root: more replications "
         "add little",
+    ),
+    Bad(
+        "too-long-a-path",
+        scenario_with('topology = "topo.toml"', 'topology = "' + "t" * 5000 + '"'),
+        "topology: 5000 characters, more than the 4096 allowed: no file path needs more characters",
     ),
     Bad(
         "holding-time-unit-too-large",

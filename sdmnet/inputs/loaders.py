@@ -127,7 +127,8 @@ MAX: dict[str, tuple[float, str]] = {
     "replications": (10_000, "intervals narrow with the square root: more replications add little"),
     "k_paths": (100, "far more candidate routes than any demand needs"),
     "years": (100, "every forecast year is a full dimensioning run"),
-    "text": (4_096, "no name or file path needs more characters"),
+    "text": (4_096, "no file path needs more characters"),
+    "name": (64, "names label every table and figure"),
 }
 #: Smallest lane rate (Gb/s): with it, a demand needs at most size_gbps / 1 units.
 MIN_LANE_GBPS = 1.0
@@ -407,6 +408,11 @@ def _count_within(doc: _Doc, where: str, count: int, what: str, unit: str) -> No
         doc.fail(where, f"{count} {unit}, more than the {_number(bound)} allowed: {why}")
 
 
+def _name_length(v: str) -> str | None:
+    bound, why = MAX["name"]
+    return None if len(v) <= bound else f"{len(v)} characters, more than the {bound} allowed: {why}"
+
+
 def _inside_unit(v: float) -> str | None:
     return None if 0 < v < 1 else f"must be between 0 and 1 (exclusive), got {_number(v)}"
 
@@ -438,6 +444,10 @@ LIMITS: dict[tuple[type, str], Limit] = {
     (FiberType, "dispersion_ps_per_nm_km"): _at_least(0),
     (FiberType, "cladding_um"): _greater(0),
     (FiberType, "group_crosstalk_db_per_km"): _all_of(_below(0), _at_least(-200, _XT)),
+    (Site, "id"): _name_length,
+    (Cable, "risk_group"): _name_length,
+    (Architecture, "name"): _name_length,
+    (TransceiverClass, "name"): _name_length,
     (Site, "traffic_weight"): _at_least(0),
     (Site, "x_km"): _all_of(_at_least(-1e5, _EARTH), _at_most(1e5, _EARTH)),
     (Site, "y_km"): _all_of(_at_least(-1e5, _EARTH), _at_most(1e5, _EARTH)),
@@ -626,6 +636,7 @@ class _RawTopology:
 
 
 def _fiber_type(doc: _Doc, name: str, where: str, table: Mapping[str, Any]) -> FiberType:
+    _within(doc, where, name, _name_length)
     values = _read_fields(doc, where, table, FiberType, exclude=("name",), optional=("coupled_group",))
     cores = values["cores"]
     if values["coupling"] == "weak":
@@ -656,7 +667,7 @@ def _site(doc: _Doc, where: str, table: Mapping[str, Any]) -> Site:
 
 
 def _build_topology(doc: _Doc, raw: _RawTopology, source: Path) -> Topology:
-    name = source.stem if raw.name is None else _as_str(doc, "name", raw.name)
+    name = source.stem if raw.name is None else _within(doc, "name", _as_str(doc, "name", raw.name), _name_length)
 
     if not raw.fiber_types:
         doc.fail("fiber_types", "no fiber types: define at least one [fiber_types.NAME]")
@@ -737,7 +748,10 @@ def _raw_topology_from_toml(doc: _Doc, data: Mapping[str, Any]) -> _RawTopology:
         if key not in data:
             doc.fail(TOP, f"missing required key '{key}'")
     types_table = _table(doc, "fiber_types", data["fiber_types"])
-    fiber_types = [(n, f"fiber_types.{n}", _table(doc, f"fiber_types.{n}", t)) for n, t in types_table.items()]
+    fiber_types = [
+        (n, f"fiber_types.{_shorten(n, 70)}", _table(doc, f"fiber_types.{_shorten(n, 70)}", t))
+        for n, t in types_table.items()
+    ]
     sites = _list_of_tables(doc, "sites", data["sites"])
     cables = _list_of_tables(doc, "cables", data["cables"])
     return _RawTopology(
@@ -1094,7 +1108,7 @@ def _scenario_from_data(data: Mapping[str, Any], path: Path) -> Scenario:
     for key in ("topology", "traffic", "architectures"):
         if key not in data:
             doc.fail(TOP, f"missing required key '{key}'")
-    name = _as_str(doc, "name", data["name"]) if "name" in data else path.stem
+    name = _within(doc, "name", _as_str(doc, "name", data["name"]), _name_length) if "name" in data else path.stem
     seed = _within(doc, "seed", _as_int(doc, "seed", data["seed"]), _at_least(0)) if "seed" in data else 1
 
     topology_path = _resolve(doc, "topology", path, _as_str(doc, "topology", data["topology"]))

@@ -456,7 +456,9 @@ LIMITS: dict[tuple[type, str], Limit] = {
     ),
     (Cable, "fiber_pairs"): _all_of(_at_least(1), _up_to("fiber_pairs")),
     (TransceiverSpec, "lane_gbps"): _all_of(_greater(0), _at_least(MIN_LANE_GBPS), _up_to("lane_gbps")),
-    (TransceiverSpec, "symbol_rate_gbaud"): _all_of(_greater(0), _at_most(1e4, "no transceiver comes near")),
+    (TransceiverSpec, "symbol_rate_gbaud"): _all_of(
+        _greater(0), _at_least(1, "no coherent transceiver is that slow"), _at_most(1e4, "no transceiver comes near")
+    ),
     (TransceiverSpec, "samples_per_symbol"): _all_of(_greater(0), _at_most(100, "DSPs take one or two")),
     (TransceiverSpec, "reach_km"): _greater(0),
     (TransceiverSpec, "power_budget_db"): _greater(0),
@@ -497,7 +499,9 @@ LIMITS: dict[tuple[type, str], Limit] = {
     (LineSpec, "fiber_xc_db"): _at_least(0),
     (LineSpec, "band_ghz"): _greater(0),
     (TransceiverClass, "lane_gbps"): _all_of(_greater(0), _at_least(MIN_LANE_GBPS), _up_to("lane_gbps")),
-    (TransceiverClass, "symbol_rate_gbaud"): _all_of(_greater(0), _at_most(1e4, "no transceiver comes near")),
+    (TransceiverClass, "symbol_rate_gbaud"): _all_of(
+        _greater(0), _at_least(1, "no coherent transceiver is that slow"), _at_most(1e4, "no transceiver comes near")
+    ),
     (TransceiverClass, "reach_km"): _greater(0),
     (TransceiverClass, "power_w"): _at_least(0),
     (TransceiverClass, "cost"): _at_least(0),

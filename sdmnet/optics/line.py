@@ -49,9 +49,15 @@ def span_count(length_km: float, span_km: float) -> int:
     return max(1, math.ceil(length_km / span_km - 1e-9))
 
 
+#: Largest magnitude of a ratio in dB turned linear: past it no light arrives (or the gain is
+#: absurd) and the path is infeasible either way; holding the ratio at 10^100 keeps the sums of
+#: ASE, NLI and crosstalk finite (a file may give losses whose sum overflows a float).
+DB_HELD = 1000.0
+
+
 def db_to_linear(db: float) -> float:
-    """10^(dB / 10)."""
-    return 10.0 ** (db / 10.0)
+    """10^(dB / 10), with ``db`` held within +-:data:`DB_HELD`."""
+    return 10.0 ** (max(-DB_HELD, min(DB_HELD, db)) / 10.0)
 
 
 def linear_to_db(ratio: float) -> float:

@@ -19,8 +19,11 @@ The formulas follow the data structures, with the bytes of CPython objects on 64
   units, so never more than the network's unit positions;
 - *routes* (per worker): per datacenter pair, ``k_paths`` routes with their cables and one booking
   kind per size class;
-- *records* (in the parent): one replication record per task, with figures per pair, site,
-  cable and size class;
+- *site histograms* (per worker, and in every record): how often each count of lanes in use
+  was seen at each datacenter site, a list as long as the site's peak count in the engine and
+  three sorted sparse lists in the record (:func:`_site_lanes` bounds both);
+- *records* (in the parent): one replication record per task, with figures per pair (ten
+  batches of offered and blocked requests each), site, cable and size class;
 - *analytic estimate* (in the parent, after the sweep): the Kaufman-Roberts recursion holds about
   six float arrays of (largest cable capacity in units + widest demand) per loaded cable and load
   point (:mod:`sdmnet.analysis.analytic`);
@@ -44,6 +47,7 @@ from pathlib import Path
 from ..errors import InputError
 from ..inputs.model import Architecture, Scenario
 from ..network.architectures import UnitGeometry, unit_geometry, why_not_allowed
+from .engine import STEADY_BATCHES
 
 __all__ = [
     "MemoryEstimate",
@@ -103,6 +107,11 @@ def _loads(scenario: Scenario, verb: str) -> float:
     return load
 
 
+def _slowest_lane(scenario: Scenario) -> float:
+    """The lowest lane rate of any transceiver class (the most units and lanes per demand)."""
+    return min([scenario.transceiver.lane_gbps] + [c.lane_gbps for c in scenario.transceivers])
+
+
 def _cables(scenario: Scenario, arch: Architecture, verb: str) -> list[tuple[UnitGeometry, int]]:
     """The unit geometry and fiber pairs of every cable under ``arch``; plans and forecasts
     search up to ``plan.max_fiber_pairs``, so they count that many."""
@@ -113,7 +122,7 @@ def _cables(scenario: Scenario, arch: Architecture, verb: str) -> list[tuple[Uni
     for cable in view.cables:
         fiber = view.fiber_types[cable.fiber_type]
         if why_not_allowed(arch, fiber) is None:  # the loader refused the others already
-            geometry = unit_geometry(arch, fiber, scenario.transceiver.lane_gbps)
+            geometry = unit_geometry(arch, fiber, _slowest_lane(scenario))
             out.append((geometry, max(cable.fiber_pairs, searched)))
     return out
 
@@ -131,7 +140,9 @@ def _engine_parts(scenario: Scenario, verb: str, jobs: int) -> list[Part]:
     hops = max(1, min(len(topo.sites) - 1, len(topo.cables), _HOPS_COUNTED))
     classes = len(scenario.traffic.sizes_gbps)
     load = _loads(scenario, verb)
-    in_flight = min(load + 10 * math.sqrt(load) + 10, run.requests + run.warmup)
+    in_flight = _in_flight(scenario, verb)
+    # A list histogram per site, grown by doubling, of counts (Python ints past 256).
+    histograms = sum(2 * peak * (8 + _INT) for peak, _spread in _site_lanes(scenario, verb))
     tasks = len(scenario.architectures) * len(scenario.traffic.loads_erlang) * run.replications
     workers = max(1, min(jobs, tasks))
     each = f", in each of {workers} workers" if workers > 1 else ""
@@ -153,7 +164,7 @@ def _engine_parts(scenario: Scenario, verb: str, jobs: int) -> list[Part]:
             widest = max(widest, geometry.channels)
             units = max(units, _largest_units(scenario, geometry))
         entries = min(positions, in_flight * units * hops)
-        flight = in_flight * _EVENT + entries * (_TUPLE + 24 + 2 * _INT + widest / 8 + 8)
+        flight = in_flight * _EVENT + entries * (_TUPLE + 24 + 2 * _INT + widest / 8 + 8) + histograms
         parts = [
             Part(f"the occupancy under '{arch.name}', a bit per fiber pair, core group and channel of each cable{each}",
                  "topology", workers * occupancy),
@@ -167,13 +178,56 @@ def _engine_parts(scenario: Scenario, verb: str, jobs: int) -> list[Part]:
     return best
 
 
-def _records_part(scenario: Scenario) -> Part:
+def _in_flight(scenario: Scenario, verb: str) -> float:
+    """Most demands in flight: an infinite-server system's mean plus ten deviations, at most the
+    run's arrivals."""
+    load = _loads(scenario, verb)
+    return min(load + 10 * math.sqrt(load) + 10, scenario.run.requests + scenario.run.warmup)
+
+
+def _site_lanes(scenario: Scenario, verb: str) -> list[tuple[float, float]]:
+    """Per datacenter site, ``(peak, spread)``: the highest count of lanes in use it can see (the
+    length of the engine's histogram) and how many distinct counts its measured arrivals see (the
+    entries of a record's histogram).
+
+    The lanes in use are a compound Poisson count (infinite-server bound): mean ``L E[n]``,
+    variance ``L E[n^2]`` for ``n`` lanes per demand; counts seen lie within ten deviations, plus
+    what the warm-up leaves unfilled (a system started empty holds ``L (1 - exp(-t))`` demands
+    after ``t`` mean holding times, ``t = warmup / L``).  Neither exceeds the lanes of the
+    cables ending at the site.
+    """
+    topo, run = scenario.topology, scenario.run
+    load = _loads(scenario, verb)
+    lane = _slowest_lane(scenario)
+    group = max(f.coupled_group for f in topo.fiber_types.values())  # MIMO modules take whole groups
+    lanes = [(math.ceil(size / lane / group) * group, p) for size, p in scenario.traffic.sizes_gbps]
+    mean = sum(n * p for n, p in lanes)
+    deviation = math.sqrt(load * sum(n * n * p for n, p in lanes))
+    largest = max(n for n, _ in lanes)
+    peak = min(load * mean + 10 * deviation, (run.requests + run.warmup) * largest) + 10 * largest
+    unfilled = load * math.exp(-run.warmup / load) * mean
+    spread = min(peak, 10 * deviation + unfilled + 10 * largest)
+    ending: dict[str, float] = {s.id: 0.0 for s in topo.datacenters}
+    for cable in topo.cables:
+        fiber = topo.fiber_types[cable.fiber_type]
+        for end in (cable.a, cable.b):
+            if end in ending:
+                ending[end] += cable.fiber_pairs * fiber.cores * fiber.channels
+    return [(min(peak, cap) + 16, min(spread, cap) + 1) for cap in ending.values()]
+
+
+def _records_part(scenario: Scenario, verb: str) -> Part:
     topo, run = scenario.topology, scenario.run
     dcs = len(topo.datacenters)
-    figures = dcs * (dcs - 1) + 2 * len(topo.sites) + len(topo.cables) + 2 * len(scenario.traffic.sizes_gbps)
+    pairs = dcs * (dcs - 1) // 2
+    figures = pairs * (2 + 2 * STEADY_BATCHES) + 3 * len(topo.sites) + len(topo.cables)
+    figures += 2 * len(scenario.traffic.sizes_gbps)
+    # Three sparse histograms per datacenter site, each entry a list of two numbers.
+    entries = 3 * sum(spread for _peak, spread in _site_lanes(scenario, verb))
     tasks = len(scenario.architectures) * len(scenario.traffic.loads_erlang) * run.replications
     # Each figure once as a Python number in the record and once in the summaries built from it.
-    return Part(f"the records of {tasks} replications", "run.replications", tasks * (figures * 2 * (_INT + 8) + 2048))
+    each = figures * 2 * (_INT + 8) + entries * (56 + 16 + 2 * _INT + 8) + 2048
+    return Part(f"the records of {tasks} replications", "run.replications", tasks * each)
 
 
 def _analytic_part(scenario: Scenario, verb: str) -> Part:
@@ -217,7 +271,7 @@ def estimate_memory(scenario: Scenario, verb: str = "simulate", *, jobs: int = 1
     if verb == "estimate":
         parts = (*routes, analytic)
         return MemoryEstimate(sum(p.nbytes for p in parts), parts)
-    records = _records_part(scenario)
+    records = _records_part(scenario, verb)
     sweep = sum(p.nbytes for p in engine) + records.nbytes
     if verb == "simulate":
         beside = Part(analytic.what, analytic.where, analytic.nbytes + records.nbytes + routes[0].nbytes)

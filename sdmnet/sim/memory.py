@@ -108,8 +108,10 @@ def _loads(scenario: Scenario, verb: str) -> float:
 
 
 def _slowest_lane(scenario: Scenario) -> float:
-    """The lowest lane rate of any transceiver class (the most units and lanes per demand)."""
-    return min([scenario.transceiver.lane_gbps] + [c.lane_gbps for c in scenario.transceivers])
+    """The lowest lane rate of any transceiver class or forecast year (the most units and lanes
+    per demand)."""
+    roadmap = list(scenario.forecast.lane_gbps_by_year) if scenario.forecast is not None else []
+    return min([scenario.transceiver.lane_gbps, *roadmap] + [c.lane_gbps for c in scenario.transceivers])
 
 
 def _cables(scenario: Scenario, arch: Architecture, verb: str) -> list[tuple[UnitGeometry, int]]:

@@ -146,6 +146,7 @@ MAGNITUDE_WHY = "no figure of a network needs more"
 _EARTH = "twice around the Earth"
 _DB = "no component comes near"
 _XT = "crosstalk below -200 dB is no crosstalk"
+_AREA = "cores have tens to a hundred and fifty square micrometres (from memory)"
 #: Largest file read (bytes): a topology of the largest allowed size takes a few MB.
 MAX_FILE_BYTES = 64 * 2**20
 # Kept for callers of the old name.
@@ -435,13 +436,22 @@ LIMITS: dict[tuple[type, str], Limit] = {
     (FiberType, "cores"): _all_of(_at_least(1), _up_to("cores")),
     (FiberType, "coupled_group"): _all_of(_at_least(1), _up_to("cores")),
     (FiberType, "channels"): _all_of(_at_least(1), _up_to("channels")),
-    (FiberType, "attenuation_db_per_km"): _all_of(_at_least(0), _at_most(100, _DB)),
+    (FiberType, "attenuation_db_per_km"): _all_of(
+        _at_least(0), _at_least(0.01, "no fiber is lossless: the best lose about 0.15 dB/km (from memory)"),
+        _at_most(100, _DB),
+    ),
     (FiberType, "gd_spread_ps_per_sqrt_km"): _all_of(_at_least(0), _at_most(1e4, "no fiber comes near")),
     (FiberType, "dgd_ps_per_km"): _all_of(_at_least(0), _at_most(1e4, "no fiber comes near")),
     (FiberType, "crosstalk_db_per_km"): _all_of(_below(0), _at_least(-200, _XT)),
     (FiberType, "mdl_db_per_sqrt_km"): _all_of(_at_least(0), _at_most(100, _DB)),
-    (FiberType, "effective_area_um2"): _greater(0),
-    (FiberType, "dispersion_ps_per_nm_km"): _at_least(0),
+    (FiberType, "effective_area_um2"): _all_of(
+        _greater(0), _at_least(1, _AREA), _at_most(1e4, _AREA)
+    ),
+    (FiberType, "dispersion_ps_per_nm_km"): _all_of(
+        _at_least(0),
+        _at_least(0.1, "the closed-form nonlinear model needs dispersion (dispersion-shifted fiber is outside it)"),
+        _at_most(1e3, "no fiber comes near"),
+    ),
     (FiberType, "cladding_um"): _greater(0),
     (FiberType, "group_crosstalk_db_per_km"): _all_of(_below(0), _at_least(-200, _XT)),
     (Site, "id"): _name_length,

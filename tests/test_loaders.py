@@ -365,7 +365,7 @@ BAD_TOPOLOGIES = [
         "edge[A,B].length_km: must be > 0, got -5",
         load="t.graphml",
     ),
-    # Upper bounds (docs/model.md, section 6): far above any real network.
+    # Upper bounds (docs/model.md, section 7): far above any real network.
     Bad(
         "too-many-fiber-pairs",
         topo("fiber_pairs = 2", "fiber_pairs = 1000000000"),

@@ -22,7 +22,7 @@ Choices this module makes (the file contract is in docs/model.md, section 5):
 - ``group`` is refused on an architecture whose switching is not ``fractional-joint``.
 - Integers must fit in 64 bits (the engine counts in numpy int64).
 - Sizes and counts have upper bounds far above any real network (:data:`MAX`, listed with the
-  reason for each in docs/model.md, section 6), so that no file can make a run exhaust the
+  reason for each in docs/model.md, section 7), so that no file can make a run exhaust the
   machine; a file is read only up to :data:`MAX_FILE_BYTES`.
 - Columns in positions count from 1 (TOML and XML alike); control characters in keys and
   values are escaped so that every error stays on one line.
@@ -106,7 +106,7 @@ SIZE_PROBABILITY_TOLERANCE = 1e-6
 #: Upper bounds of what a file may ask for, with the reason each gives in its error message.
 #: Each lies far above any real network, and low enough that no single value can exhaust the
 #: machine (combinations are left to the memory estimate of :mod:`sdmnet.sim.memory`).  Figures
-#: recalled without a source say so.  docs/model.md, section 6, lists them.
+#: recalled without a source say so.  docs/model.md, section 7, lists them.
 MAX: dict[str, tuple[float, str]] = {
     "fiber_pairs": (10_000, "the largest cables hold a few thousand fibers (from memory)"),
     "cores": (256, "multicore fibers hold tens of cores (from memory)"),

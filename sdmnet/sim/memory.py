@@ -1,5 +1,5 @@
 """How much memory a run will hold, estimated from the scenario before anything large is
-allocated; and the refusal when the machine has less (docs/model.md, section 6).
+allocated; and the refusal when the machine has less (docs/model.md, section 7).
 
 The loaders bound every value on its own (no cable of more than 10,000 fiber pairs, and so on);
 what they cannot see is a combination: many fiber pairs *and* many core groups *and* many

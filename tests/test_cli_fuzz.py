@@ -410,8 +410,10 @@ def test_every_extreme_value_in_every_field(stub_figures: None, target: tuple[st
 
 
 # Extreme values the loader accepts that reach the figures and the report, set together: the
-# largest drawing extent, the longest and oddest names, one replication, a cable of the most
-# fiber pairs, the shortest cable, the largest weight; then the smallest and largest loads.
+# largest drawing extent, the longest and oddest names, one replication, the shortest cable, the
+# largest weight; then the smallest and largest loads.  (A cable of 10,000 fiber pairs is left
+# out: the analytic estimate's Kaufman-Roberts recursion steps through every unit of a cable,
+# half a minute here; tests/test_memory.py builds the engine's occupancy at that size.)
 REACHING_FIGURES = {
     "extents-names-sizes": [
         (("topology", ("sites", 1, "x_km")), 1e5),
@@ -419,7 +421,6 @@ REACHING_FIGURES = {
         (("topology", ("sites", 1, "id")), "\u00e9\u2603\u202e" + "B" * 61),
         (("scenario", ("architectures", 0, "name")), "x" * 64),
         (("scenario", ("run", "replications")), 1),
-        (("topology", ("cables", 0, "fiber_pairs")), 10_000),
         (("topology", ("cables", 1, "length_km")), 1e-3),
         (("topology", ("sites", 0, "traffic_weight")), 1e12),
     ],

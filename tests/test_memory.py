@@ -141,3 +141,14 @@ def test_a_size_that_is_none_is_refused(text):
 
 def test_bytes_read_in_the_unit_that_fits():
     assert [format_bytes(x) for x in (512, 2e5, 3.2e9, 1.51e15)] == ["0.512 kB", "0.2 MB", "3.2 GB", "1.51e+03 TB"]
+
+
+def test_automatic_warm_up_and_precision_are_counted():
+    fiber = fiber_type(cores=7, channels=40)
+    sc = scenario(chain(fiber, 3, fiber_pairs=2), [INDEPENDENT], loads=(50.0,))
+    fixed = estimate_memory(sc)
+    auto = estimate_memory(replace(sc, run=replace(sc.run, warmup="auto")))
+    assert auto.total > 0
+    # With precision a point may get up to max_replications: their records are counted.
+    more = estimate_memory(replace(sc, run=replace(sc.run, precision=0.05, max_replications=40)))
+    assert _part(more, "run.replications") == pytest.approx(_part(fixed, "run.replications") * 40 / sc.run.replications)

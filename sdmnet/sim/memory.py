@@ -48,6 +48,8 @@ from ..errors import InputError
 from ..inputs.model import Architecture, Scenario
 from ..network.architectures import UnitGeometry, unit_geometry, why_not_allowed
 from .engine import STEADY_BATCHES
+from .precision import replication_cap
+from .warmup import AUTO, FIRST_LOOK, MAX_HOLDING_TIMES, SAMPLES_PER_HOLDING
 
 __all__ = [
     "MemoryEstimate",
@@ -145,7 +147,7 @@ def _engine_parts(scenario: Scenario, verb: str, jobs: int) -> list[Part]:
     in_flight = _in_flight(scenario, verb)
     # A list histogram per site, grown by doubling, of counts (Python ints past 256).
     histograms = sum(2 * peak * (8 + _INT) for peak, _spread in _site_lanes(scenario, verb))
-    tasks = len(scenario.architectures) * len(scenario.traffic.loads_erlang) * run.replications
+    tasks = len(scenario.architectures) * len(scenario.traffic.loads_erlang) * _replications(scenario)
     workers = max(1, min(jobs, tasks))
     each = f", in each of {workers} workers" if workers > 1 else ""
     routes = pairs * run.k_paths * (_TUPLE + 8 * hops + classes * (2 * _TUPLE + 9 * 8 + _INT))
@@ -180,11 +182,23 @@ def _engine_parts(scenario: Scenario, verb: str, jobs: int) -> list[Part]:
     return best
 
 
+def _warmup(scenario: Scenario, load: float) -> float:
+    """Warm-up arrivals of a replication: ``[run] warmup``, or at most the automatic warm-up's cap."""
+    if scenario.run.warmup == AUTO:
+        return max(FIRST_LOOK * max(1.0, load / SAMPLES_PER_HOLDING), MAX_HOLDING_TIMES * load)
+    return float(scenario.run.warmup)
+
+
+def _replications(scenario: Scenario) -> int:
+    """Replications per point: with ``[run] precision``, as many as it may add."""
+    return replication_cap(scenario.run) if scenario.run.precision is not None else scenario.run.replications
+
+
 def _in_flight(scenario: Scenario, verb: str) -> float:
     """Most demands in flight: an infinite-server system's mean plus ten deviations, at most the
     run's arrivals."""
     load = _loads(scenario, verb)
-    return min(load + 10 * math.sqrt(load) + 10, scenario.run.requests + scenario.run.warmup)
+    return min(load + 10 * math.sqrt(load) + 10, scenario.run.requests + _warmup(scenario, load))
 
 
 def _site_lanes(scenario: Scenario, verb: str) -> list[tuple[float, float]]:
@@ -206,8 +220,10 @@ def _site_lanes(scenario: Scenario, verb: str) -> list[tuple[float, float]]:
     mean = sum(n * p for n, p in lanes)
     deviation = math.sqrt(load * sum(n * n * p for n, p in lanes))
     largest = max(n for n, _ in lanes)
-    peak = min(load * mean + 10 * deviation, (run.requests + run.warmup) * largest) + 10 * largest
-    unfilled = load * math.exp(-run.warmup / load) * mean
+    warmup = _warmup(scenario, load)
+    peak = min(load * mean + 10 * deviation, (run.requests + warmup) * largest) + 10 * largest
+    # With warmup = "auto" the measured arrivals start once the demands in flight have settled.
+    unfilled = 0.0 if run.warmup == AUTO else load * math.exp(-warmup / load) * mean
     spread = min(peak, 10 * deviation + unfilled + 10 * largest)
     ending: dict[str, float] = {s.id: 0.0 for s in topo.datacenters}
     for cable in topo.cables:
@@ -219,14 +235,14 @@ def _site_lanes(scenario: Scenario, verb: str) -> list[tuple[float, float]]:
 
 
 def _records_part(scenario: Scenario, verb: str) -> Part:
-    topo, run = scenario.topology, scenario.run
+    topo = scenario.topology
     dcs = len(topo.datacenters)
     pairs = dcs * (dcs - 1) // 2
     figures = pairs * (2 + 2 * STEADY_BATCHES) + 3 * len(topo.sites) + len(topo.cables)
     figures += 2 * len(scenario.traffic.sizes_gbps)
     # Three sparse histograms per datacenter site, each entry a list of two numbers.
     entries = 3 * sum(spread for _peak, spread in _site_lanes(scenario, verb))
-    tasks = len(scenario.architectures) * len(scenario.traffic.loads_erlang) * run.replications
+    tasks = len(scenario.architectures) * len(scenario.traffic.loads_erlang) * _replications(scenario)
     # Each figure once as a Python number in the record and once in the summaries built from it.
     each = figures * 2 * (_INT + 8) + entries * (56 + 16 + 2 * _INT + 8) + 2048
     return Part(f"the records of {tasks} replications", "run.replications", tasks * each)

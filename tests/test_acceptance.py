@@ -5,7 +5,16 @@ from __future__ import annotations
 import math
 from dataclasses import replace
 
-from sdmnet.planning.acceptance import MET, MISSED, UNDECIDED, Targets, next_batch, verdict, worst_pair
+from sdmnet.planning.acceptance import (
+    MET,
+    MISSED,
+    UNDECIDED,
+    UNLIKELY,
+    Targets,
+    next_batch,
+    verdict,
+    worst_pair,
+)
 from sdmnet.sim.stats import Interval, PointSummary
 
 
@@ -26,6 +35,8 @@ def test_upper_bound_decides_not_the_point_estimate():
     assert verdict(_point(Interval(0.009, 0.007, 0.011)), Targets(0.01)) == UNDECIDED
     assert verdict(_point(Interval(0.008, 0.007, 0.01)), Targets(0.01)) == MET
     assert verdict(_point(Interval(0.012, 0.0101, 0.014)), Targets(0.01)) == MISSED
+    # Holding the target with the point estimate above it: dropped without more replications.
+    assert verdict(_point(Interval(0.0105, 0.008, 0.013)), Targets(0.01)) == UNLIKELY
 
 
 def test_one_replication_never_decides():
@@ -39,7 +50,8 @@ def test_pair_target_is_enforced_on_every_offered_pair():
     point = _point(good, pairs, offered=[10, 10, 0])
     assert verdict(point, Targets(0.01)) == MET
     assert verdict(point, Targets(0.01, pair=0.06)) == MET
-    assert verdict(point, Targets(0.01, pair=0.04)) == UNDECIDED
+    assert verdict(point, Targets(0.01, pair=0.045)) == UNDECIDED
+    assert verdict(point, Targets(0.01, pair=0.035)) == UNLIKELY
     assert verdict(point, Targets(0.01, pair=0.02)) == MISSED
     assert worst_pair(point, (("A", "B"), ("A", "C"), ("B", "C"))) == ("A-C", 0.04)
     assert worst_pair(replace(point, pair_offered=(0, 0, 0)), (("A", "B"), ("A", "C"), ("B", "C")))[0] == ""

@@ -10,6 +10,7 @@ from sdmnet.inputs.model import Architecture
 from sdmnet.planning.acceptance import Targets
 from sdmnet.planning.candidates import Evaluator, run_replications, with_fiber_pairs
 from sdmnet.sim.engine import prepare
+from sdmnet.sim.stats import summarize_point
 
 
 def _chain():
@@ -39,11 +40,15 @@ def test_sequential_replications_extend_the_same_streams():
 def test_undecided_candidates_get_more_replications_up_to_the_cap():
     sc, arch = _chain()
     setup = prepare(sc, arch)
-    # A target at the candidate's own blocking cannot be cleared: it runs to the cap, undecided.
+    # A target at the highest point estimate the batches see (2, 4, 6, 8 replications) keeps every
+    # mean at or under it while the interval holds it: it runs to the cap, undecided.
     probe = run_replications(setup, 6.0, sc.seed, range(8), sc.run)
-    blocking = sum(r.blocked for r in probe) / sum(r.requests for r in probe)
-    ev = Evaluator(setup, 6.0, sc.seed, sc.run, Targets(blocking))([1, 1, 1])
+    means = [summarize_point(probe[:n], 0.95).blocking.mean for n in (2, 4, 6, 8)]
+    ev = Evaluator(setup, 6.0, sc.seed, sc.run, Targets(max(means)))([1, 1, 1])
     assert ev.verdict == "undecided" and ev.replications == 8
+    # A target just under the first batch's point estimate stops there (futility), unaccepted.
+    stop = Evaluator(setup, 6.0, sc.seed, sc.run, Targets(0.999 * means[0]))([1, 1, 1])
+    assert stop.verdict == "unlikely" and stop.replications == 2 and not stop.meets
     # A target far above is met after the first batch.
     easy = Evaluator(setup, 6.0, sc.seed, sc.run, Targets(0.9))([1, 1, 1])
     assert easy.meets and easy.replications == 2

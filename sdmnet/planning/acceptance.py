@@ -10,6 +10,12 @@ contain the target".  An
 interval that still holds the target at the cap is reported as ``undecided`` and is not accepted:
 the plan then carries more capacity, never less.
 
+A candidate whose point estimate already lies above its target is *unlikely* and gets no more
+replications (a futility stop): it could only be accepted if further replications pulled the
+mean below the target by a whole half-width.  It is dropped, not claimed missed; dropping it can
+only make the plan larger, so the guarantee on accepted plans is unchanged, and it saves the
+replications that trim trials near the boundary would otherwise spend running to the cap.
+
 Checking the interval after every batch is repeated testing: the chance that some look accepts
 a candidate whose true blocking is just above the target is larger than ``1 - confidence``
 (docs/planning.md, limits).  Per-pair intervals are individual, not simultaneous.
@@ -23,12 +29,17 @@ from typing import Literal
 
 from ..sim.stats import Interval, PointSummary
 
-__all__ = ["Verdict", "Targets", "MET", "MISSED", "UNDECIDED", "verdict", "next_batch", "worst_pair"]
+__all__ = [
+    "Verdict", "Targets", "MET", "MISSED", "UNDECIDED", "UNLIKELY", "FINAL", "verdict", "next_batch", "worst_pair",
+]
 
-Verdict = Literal["met", "missed", "undecided"]
+Verdict = Literal["met", "missed", "undecided", "unlikely"]
 MET: Verdict = "met"
 MISSED: Verdict = "missed"
 UNDECIDED: Verdict = "undecided"
+UNLIKELY: Verdict = "unlikely"
+# Verdicts after which no more replications are run.
+FINAL: frozenset[str] = frozenset((MET, MISSED, UNLIKELY))
 
 
 @dataclass(frozen=True)
@@ -55,12 +66,15 @@ def _side(iv: Interval, target: float) -> Verdict:
         return MET
     if iv.low > target:
         return MISSED
+    if iv.mean > target:
+        return UNLIKELY
     return UNDECIDED
 
 
 def verdict(point: PointSummary, targets: Targets) -> Verdict:
     """``met`` when every interval's upper bound is at or below its target, ``missed`` when some
-    lower bound is above its target, else ``undecided``.
+    lower bound is above its target, ``unlikely`` when some point estimate is above its target
+    (the interval still holding it), else ``undecided``.
 
     The network interval is tested against ``targets.blocking``; with ``targets.pair``, the
     interval of every pair that was offered demands is tested against it too.
@@ -70,6 +84,8 @@ def verdict(point: PointSummary, targets: Targets) -> Verdict:
         sides += [_side(iv, targets.pair) for iv, n in zip(point.pair_blocking, point.pair_offered) if n > 0]
     if MISSED in sides:
         return MISSED
+    if UNLIKELY in sides:
+        return UNLIKELY
     if UNDECIDED in sides:
         return UNDECIDED
     return MET

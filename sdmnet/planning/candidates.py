@@ -20,7 +20,7 @@ from ..errors import RunInterrupted
 from ..inputs.model import RunSpec
 from ..sim.engine import EngineSetup, ReplicationRecord, simulate_replication
 from ..sim.stats import PointSummary, summarize_point
-from .acceptance import MET, Targets, Verdict, next_batch, verdict
+from .acceptance import FINAL, MET, Targets, Verdict, next_batch, verdict
 
 __all__ = ["with_fiber_pairs", "run_replications", "Evaluation", "Evaluator", "DEFAULT_MAX_CANDIDATES",
            "REPLICATION_CAP_FACTOR"]
@@ -72,7 +72,7 @@ def run_replications(
 class Evaluation:
     """One simulated candidate: fiber pairs per cable (topology order) and what they gave.
 
-    ``verdict`` is ``met``, ``missed`` or ``undecided`` (:mod:`sdmnet.planning.acceptance`);
+    ``verdict`` is ``met``, ``missed``, ``unlikely`` or ``undecided`` (:mod:`sdmnet.planning.acceptance`);
     ``point.replications`` says how many replications it took.
     """
 
@@ -185,7 +185,7 @@ class Evaluator:
                                         self.jobs)  # fmt: skip
             point = summarize_point(records, self.confidence)
             said = verdict(point, self.targets)
-            if said != "undecided":
+            if said in FINAL:
                 break
         ev = Evaluation(key, point, said, len(self.history) + 1, self._phase)
         self._cache[key] = ev

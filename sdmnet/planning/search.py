@@ -146,7 +146,8 @@ class ArchitecturePlan:
 
     @property
     def verdict(self) -> str:
-        """``met``, ``missed`` or ``undecided`` (at the replication cap) of the intact network."""
+        """``met``, ``missed``, ``unlikely`` (point estimate above the target) or ``undecided`` (at the
+        replication cap) of the intact network."""
         return self.evaluation.verdict
 
 

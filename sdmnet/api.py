@@ -11,7 +11,7 @@ from __future__ import annotations
 import functools
 import inspect
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, TypeVar
@@ -276,13 +276,16 @@ def forecast(
     progress: bool = True,
     figures: bool = True,
     memory_limit: float | None = None,
+    year0: Sequence[Any] = (),
 ):
     """The plan year by year under growth: writes ``forecast.csv``, its figures and run.json
-    (:func:`sdmnet.planning.forecasting.run_forecast`) and, with ``figures``, ``report.html``."""
+    (:func:`sdmnet.planning.forecasting.run_forecast`) and, with ``figures``, ``report.html``.
+
+    ``year0``: plans of this scenario already made (``plan(...).plans``), reused as year 0."""
     from .planning.forecasting import run_forecast
 
     require_memory(scenario, "forecast", jobs=jobs, limit=memory_limit)
-    result = run_forecast(scenario, out_dir, jobs=jobs, progress=progress)
+    result = run_forecast(scenario, out_dir, jobs=jobs, progress=progress, year0=year0)
     if figures:
         report(out_dir)
     return result
@@ -339,11 +342,13 @@ def demo(scenario: Scenario, out_dir: Path | str, *, jobs: int = 2, progress: bo
     estimate(scenario, out)
     # The report (and every figure in it) is written once, at the end.
     result = simulate(scenario, out, jobs=jobs, progress=progress, figures=False)
-    totals = None
+    totals, planned = None, ()
     if scenario.plan is not None:
-        totals = plan(scenario, out, jobs=jobs, progress=progress, figures=False).totals
+        made = plan(scenario, out, jobs=jobs, progress=progress, figures=False)
+        totals, planned = made.totals, made.plans
     if scenario.forecast is not None:
-        forecast(scenario, out, jobs=jobs, progress=progress, figures=False)
+        # Year 0 of the forecast is the plan just made: not searched a second time.
+        forecast(scenario, out, jobs=jobs, progress=progress, figures=False, year0=planned)
     wall = time.perf_counter() - started
     write_json(run_manifest(scenario, "demo", wall, jobs=jobs), out / "run.json")
     report(out)

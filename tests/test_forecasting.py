@@ -142,3 +142,14 @@ def test_forecast_in_money_with_a_growth_band(tmp_path):
     # More growth never needs less: fibers are only ever added, and each case meets its target.
     assert (cost["low"] <= cost["high"] + 1e-9).all()
     assert (tmp_path / "forecast_cost.png").stat().st_size > 1000
+
+
+def test_a_plan_already_made_is_year_0_and_the_forecast_is_unchanged(tmp_path):
+    # Reusing `sdmnet plan`'s result as year 0 (as the demo does) must give the very forecast that
+    # planning year 0 again gives: the plan search is deterministic for a seed.
+    sc = _chain_scenario()
+    fresh = run_forecast(sc, tmp_path / "fresh", progress=False)
+    plan = run_plan(sc, tmp_path / "plan", progress=False)
+    reused = run_forecast(sc, tmp_path / "reused", progress=False, year0=plan.plans)
+    assert reused.years[0].plan is plan.plans[0]
+    pd.testing.assert_frame_equal(reused.forecast, fresh.forecast)

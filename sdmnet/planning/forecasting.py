@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import math
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
 
@@ -167,6 +167,7 @@ def forecast_architecture(
     log: Callable[[str], None] | None = None,
     growth: float | None = None,
     year_done: Callable[[YearPlan], None] | None = None,
+    year0: ArchitecturePlan | None = None,
 ) -> list[YearPlan]:
     """Plans of one architecture for years 0..F, each year's fibers a floor for the next.
 
@@ -186,14 +187,20 @@ def forecast_architecture(
         Yearly growth replacing ``growth_per_year`` (a case of the band).
     year_done : callable, optional
         Called with each year's plan as soon as it is made.
+    year0 : ArchitecturePlan, optional
+        The architecture's plan of the scenario as given, already made (by ``sdmnet plan``, or
+        by another growth case): year 0 is that very plan, so it is not searched again.
     """
     spec = forecast_spec(scenario)
     arch = scenario.architectures[arch_index]
     installed = tuple(c.fiber_pairs for c in scenario.topology.cables)
     routes = _Routes()
     years: list[YearPlan] = []
-    plan = plan_architecture(scenario, arch, jobs=jobs, max_candidates=max_candidates, log=log,
-                             setup=routes.setup(scenario, arch))  # fmt: skip
+    if year0 is not None and year0.architecture == arch:
+        plan = year0
+    else:
+        plan = plan_architecture(scenario, arch, jobs=jobs, max_candidates=max_candidates, log=log,
+                                 setup=routes.setup(scenario, arch))  # fmt: skip
     years.append(YearPlan(0, 1.0, plan, installed, scenario))
     if year_done is not None:
         year_done(years[-1])
@@ -282,7 +289,14 @@ def forecast_figures(totals: pd.DataFrame, out_dir: Path, band: pd.DataFrame | N
     ]
 
 
-def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, progress: bool = True) -> ForecastResult:
+def run_forecast(
+    scenario: Scenario,
+    out_dir: Path | str,
+    *,
+    jobs: int = 1,
+    progress: bool = True,
+    year0: Sequence[ArchitecturePlan] = (),
+) -> ForecastResult:
     """Plan every architecture for years 0..F of growth and write the forecast.
 
     Files written into ``out_dir``: ``forecast.csv`` (year x architecture x cable: pairs,
@@ -305,6 +319,10 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
     progress : bool
         A progress bar of the years planned on stderr (on a terminal; elsewhere one summary
         line at the end).
+    year0 : sequence of ArchitecturePlan
+        Plans of this very scenario already made (:func:`sdmnet.planning.run.run_plan`): an
+        architecture found here is not planned again for year 0.  Every growth case shares its
+        year 0 either way.
 
     Raises
     ------
@@ -324,10 +342,13 @@ def run_forecast(scenario: Scenario, out_dir: Path | str, *, jobs: int = 1, prog
     # One step per year planned (every architecture and case); the latest candidate shows beside the bar.
     steps = len(scenario.architectures) * len(cases) * (spec.years + 1)
     bar = ProgressBar("forecast", "years", steps, enabled=progress)
-    for ai in range(len(scenario.architectures)):
+    known = {p.architecture.name: p for p in year0}
+    for ai, arch in enumerate(scenario.architectures):
+        first = known.get(arch.name)
         for case, growth in cases:
-            years = forecast_architecture(scenario, ai, jobs=jobs, log=bar.note, growth=growth,
+            years = forecast_architecture(scenario, ai, jobs=jobs, log=bar.note, growth=growth, year0=first,
                                           year_done=lambda yp, c=case: bar.step(f"{c} year {yp.year} planned"))
+            first = years[0].plan
             year_totals = _year_totals(years)
             band += [{"case": case, "growth_per_year": spec.growth_per_year if growth is None else growth,
                       **{k: t[k] for k in BAND_COLUMNS if k in t}} for t in year_totals]  # fmt: skip

@@ -192,6 +192,23 @@ def _build_terms(streams: Sequence[RoutedStream], size_of: dict[int, int]) -> tu
     return terms, options
 
 
+def _reduce_at(ufunc: np.ufunc, out: np.ndarray, index: np.ndarray, values: np.ndarray) -> None:
+    """``ufunc.at(out, (slice(None), index), values)`` for a non-decreasing ``index``: each run of
+    equal indices reduced at once (:meth:`numpy.ufunc.reduceat`, far faster than ``ufunc.at``).
+    For products and minima the values meet in the same order, so the floats are the same."""
+    if index.size == 0:
+        return
+    starts = np.flatnonzero(np.r_[True, index[1:] != index[:-1]])
+    at = index[starts]
+    out[:, at] = ufunc(out[:, at], ufunc.reduceat(values, starts, axis=1))
+
+
+def _add_at(index: np.ndarray, values: np.ndarray, size: int) -> np.ndarray:
+    """Sums of ``values`` (P, N) by ``index`` (N,) into (P, size): ``np.add.at`` on zeros, by
+    :func:`numpy.bincount` per row (the same additions in the same order, so the same floats)."""
+    return np.stack([np.bincount(index, weights=row, minlength=size) for row in values]).reshape(len(values), size)
+
+
 def _exclusive(survive: np.ndarray, terms: _Terms, n_terms: int) -> tuple[np.ndarray, np.ndarray]:
     """Per term-link, the product of the term's *other* links' survival; and per term the full product."""
     n_points = survive.shape[0]
@@ -242,6 +259,9 @@ class _OptionHops:
     cover_option: np.ndarray  # (V,) an option under a continuity rule
     cover_by: np.ndarray  # (V,) an option crossing all of its links (itself included)
     cover_units: np.ndarray  # (V,) units the covering option holds on those links
+    pair_link: np.ndarray  # (U,) the distinct (link, need) pairs of the hops
+    pair_need: np.ndarray  # (U,)
+    pair_of_hop: np.ndarray  # (H,) each hop's pair
 
 
 def _option_hops(options: list) -> _OptionHops:
@@ -251,6 +271,18 @@ def _option_hops(options: list) -> _OptionHops:
     for o, (_s, _r, opt) in enumerate(options):
         for ell in opt.links:
             by_link.setdefault(ell, []).append(o)
+    # Each option's links as a bitmask in 64-bit words: "crosses all of o's links" is one AND
+    # per candidate, for all candidates of a link at once.
+    words = max((ell for ell in by_link), default=0) // 64 + 1
+    masks = np.zeros((len(options), words), dtype=np.uint64)
+    for o, (_s, _r, opt) in enumerate(options):
+        bits = sum(1 << ell for ell in opt.links)
+        masks[o] = [(bits >> (64 * w)) & 0xFFFFFFFFFFFFFFFF for w in range(words)]
+    crossing = {ell: np.array(members, dtype=np.int64) for ell, members in by_link.items()}
+    held_on = {
+        ell: np.array([options[q][2].units[options[q][2].links.index(ell)] for q in members], dtype=float)
+        for ell, members in by_link.items()
+    }
     cover_option, cover_by, cover_units = [], [], []
     for o, (_s, _r, opt) in enumerate(options):
         if opt.slots <= 0 or len(opt.links) < 2:
@@ -263,18 +295,20 @@ def _option_hops(options: list) -> _OptionHops:
             positions.append(int(m))
             need.append(n)
         groups.setdefault(n, []).append(o)
-        mine = set(opt.links)
-        for q in by_link[opt.links[0]]:
-            other = options[q][2]
-            if mine <= set(other.links):
-                cover_option.append(o)
-                cover_by.append(q)
-                cover_units.append(other.units[other.links.index(opt.links[0])])
+        candidates = crossing[opt.links[0]]
+        mine = masks[o]
+        covers = ((masks[candidates] & mine) == mine).all(axis=1)
+        cover_by.append(candidates[covers])
+        cover_units.append(held_on[opt.links[0]][covers])
+        cover_option.append(np.full(int(covers.sum()), o, dtype=np.int64))
     as_int = lambda x: np.array(x, dtype=np.int64)  # noqa: E731
+    pairs, pair_of_hop = np.unique(np.stack([as_int(link), as_int(need)]).reshape(2, -1), axis=1, return_inverse=True)
     return _OptionHops(
         as_int(option), as_int(link), as_int(positions), as_int(need), slots,
         [(n, as_int(members)) for n, members in sorted(groups.items())],
-        as_int(cover_option), as_int(cover_by), np.array(cover_units, dtype=float),
+        *(np.concatenate(x) if x else np.zeros(0, dtype=kind)
+          for x, kind in ((cover_option, np.int64), (cover_by, np.int64), (cover_units, float))),
+        pairs[0], pairs[1], pair_of_hop.ravel(),
     )
 
 
@@ -293,27 +327,32 @@ def _continuity(hops: _OptionHops, n_options: int, occupancy: np.ndarray, capaci
         return out
     caps = capacities[hops.link]
     top = occupancy.shape[2] - 1
-    pi = occupancy[:, hops.link, :]  # (P, H, Cmax + 1)
-    free = caps[:, None] - np.arange(top + 1)[None, :]
-    room = free >= hops.need[:, None]
-    mass = (pi * room[None]).sum(axis=2)
-    mean_free = np.divide((pi * (free * room)[None]).sum(axis=2), mass, out=np.zeros_like(mass), where=mass > 0)
+    # A hop's room and mean free units depend on its link and need only: computed once per such
+    # pair (hundreds) rather than per hop (every hop of every route), then handed to the hops.
+    pair_link, pair_need, per_hop = hops.pair_link, hops.pair_need, hops.pair_of_hop
+    pi = occupancy[:, pair_link, :]  # (P, U, Cmax + 1)
+    free = capacities[pair_link][:, None] - np.arange(top + 1)[None, :]
+    room = free >= pair_need[:, None]
+    pair_mass = (pi * room[None]).sum(axis=2)
+    pair_free = np.divide((pi * (free * room)[None]).sum(axis=2), pair_mass, out=np.zeros_like(pair_mass),
+                          where=pair_mass > 0)  # fmt: skip
+    mean_free = pair_free[:, per_hop]
     # Units of each hop not held by aligned calls, and the slots they fill.
     busy_aligned = np.minimum(aligned[:, hops.option], caps[None, :] - mean_free)
     open_units = np.maximum(caps[None, :] - busy_aligned, 1.0)
     phi = np.clip(mean_free / open_units, 0.0, 1.0)  # (P, H)
     open_share = np.ones((n_points, n_options))
-    np.minimum.at(open_share, (slice(None), hops.option), open_units / caps[None, :])
+    _reduce_at(np.minimum, open_share, hops.option, open_units / caps[None, :])
     slots = np.maximum(np.rint(hops.slots[None, :] * open_share), 1).astype(np.int64)  # (P, O)
     largest = int(hops.need.max())
     z = np.arange(largest + 1)
     # P(a slot has >= z free positions on the hop), then over the hops' minimum per option.
     tail = _binomial_sf(z[None, None, :] - 1, hops.positions[None, :, None], phi[:, :, None])  # (P, H, Z)
     minimum_tail = np.ones((n_points, n_options, largest + 1))
-    np.multiply.at(minimum_tail, (slice(None), hops.option), tail)
+    _reduce_at(np.multiply, minimum_tail, hops.option, tail)
     alone = np.ones((n_points, n_options))
-    np.minimum.at(alone, (slice(None), hops.option),
-                  _binomial_sf(hops.need[None, :] - 1, slots[:, hops.option] * hops.positions[None, :], phi))
+    _reduce_at(np.minimum, alone, hops.option,
+               _binomial_sf(hops.need[None, :] - 1, slots[:, hops.option] * hops.positions[None, :], phi))
     for n, members in hops.groups:
         t = minimum_tail[:, members, : n + 1]
         pmf = np.empty_like(t)
@@ -409,19 +448,17 @@ def routed_fixed_point(
 
     def step(blocking: np.ndarray, occupancy: np.ndarray, carried: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         survive = 1.0 - blocking[:, terms.link, terms.size_index]
-        aligned = np.zeros((n_points, len(options)))
-        np.add.at(aligned, (slice(None), option_hops.cover_option),
-                  carried[:, option_hops.cover_by] * cover_load * option_hops.cover_units[None, :])
+        aligned = _add_at(option_hops.cover_option, carried[:, option_hops.cover_by] * cover_load
+                          * option_hops.cover_units[None, :], len(options))  # fmt: skip
         factor = _continuity(option_hops, len(options), occupancy, caps, aligned)  # (P, O)
         route_factor = np.ones((n_points, n_terms))
-        np.multiply.at(route_factor, (slice(None), terms.factor_term), factor[:, terms.factor_option])
+        _reduce_at(np.multiply, route_factor, terms.factor_term, factor[:, terms.factor_option])
         others, whole = _exclusive(survive, terms, n_terms)
         thinned = offered_hop * others * route_factor[:, terms.stream]
         link_loads = np.bincount(cell, weights=thinned.ravel(), minlength=n_points * n_links * n_sizes)
         link_loads = np.maximum(link_loads.reshape(n_points, n_links, n_sizes), 0.0)
         value = terms.sign[None, :] * whole * route_factor  # (P, T)
-        carried_option = np.zeros((n_points, len(options)))
-        np.add.at(carried_option, (slice(None), terms.term_option), value)
+        carried_option = _add_at(terms.term_option, value, len(options))
         return link_loads, np.clip(carried_option, 0.0, 1.0)
 
     blocking, occupancy = link_state(np.zeros((n_points, n_links, n_sizes)))

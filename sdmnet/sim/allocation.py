@@ -65,7 +65,6 @@ class UnitState:
         self.lane_change = lane_change
         self.fibers = list(fiber_pairs)
         self.groups = list(groups_per_fiber)
-        ncables = len(self.fibers)
         fulls = [(1 << w) - 1 if f * g else 0 for w, f, g in zip(self.channels, self.fibers, self.groups)]
         self.full = max(fulls, default=0)
         # Per cable: all positions free, as bits (bit i is position i = group * fibers + fiber).
@@ -75,7 +74,6 @@ class UnitState:
         self._group0_bits = [(1 << f) - 1 for f in self.fibers]
         self.any_free = list(fulls)
         self.group_free = [[m] * g for m, g in zip(fulls, self.groups)]
-        self.busy_units = [0] * ncables
         # Bound once here, so the engine's calls skip a dispatch on `lane_change`.
         self.take = self._take_lane_change if lane_change else self._take_same_group
         self.give_back = self._give_back_lane_change if lane_change else self._give_back_same_group
@@ -84,6 +82,14 @@ class UnitState:
         """Unit positions on ``cable``."""
         return self.fibers[cable] * self.groups[cable] * self.channels[cable]
 
+    @property
+    def busy_units(self) -> list[int]:
+        """Units in use per cable, counted from the free bits (kept by no take or release: only
+        the end of a run asks)."""
+        return [
+            self.capacity_units(h) - sum(row.bit_count() for row in self._slots[h]) for h in range(len(self.fibers))
+        ]
+
     def take(self, cables: Sequence[int], n: int) -> Grant | None:  # replaced per instance in __init__
         """Take ``n`` units on every hop of ``cables`` by first fit, or None (nothing taken)."""
         if self.lane_change:
@@ -91,18 +97,19 @@ class UnitState:
         return self._take_same_group(cables, n)
 
     def _take_lane_change(self, cables: Sequence[int], n: int) -> Grant | None:
-        any_free, slots, busy = self.any_free, self._slots, self.busy_units
+        any_free, slots = self.any_free, self._slots
+        # The channels free on every hop: computed once; taking a unit on channel w can only
+        # take w out of it (when a hop has no position left on w), so it is kept, not redone.
+        avail = self.full
+        for h in cables:
+            avail &= any_free[h]
+        if not avail or (n > 1 and avail.bit_count() < n and not self._room(cables, avail, n)):
+            return None  # refused before anything is taken: a blocked demand builds nothing
         grant: Grant = []
         for _ in range(n):
-            avail = self.full
-            for h in cables:
-                avail &= any_free[h]
-            if not avail:
-                if grant:
-                    self._give_back_lane_change(grant)
-                return None
             bit = avail & -avail
             w = bit.bit_length() - 1
+            emptied = False
             for h in cables:
                 row = slots[h]
                 free = row[w]
@@ -111,12 +118,26 @@ class UnitState:
                 row[w] = free
                 if not free:
                     any_free[h] ^= bit
+                    emptied = True
                 grant.append((h, low.bit_length() - 1, bit))
-                busy[h] += 1
+            if emptied:
+                avail ^= bit
         return grant
 
+    def _room(self, cables: Sequence[int], avail: int, n: int) -> bool:
+        """Whether ``n`` units fit on ``cables`` with lane change, when fewer than ``n`` channels
+        are free on every hop: each such channel holds as many units as its fullest hop allows."""
+        slots = self._slots
+        units = 0
+        while avail and units < n:
+            bit = avail & -avail
+            avail ^= bit
+            w = bit.bit_length() - 1
+            units += min(slots[h][w].bit_count() for h in cables)
+        return units >= n
+
     def _take_same_group(self, cables: Sequence[int], n: int) -> Grant | None:
-        any_free, group_free, slots, busy = self.any_free, self.group_free, self._slots, self.busy_units
+        any_free, group_free, slots = self.any_free, self.group_free, self._slots
         fibers, group0_bits = self.fibers, self._group0_bits
         groups = range(self.groups[cables[0]])
         grant: Grant = []
@@ -153,7 +174,6 @@ class UnitState:
                 if not free:
                     any_free[h] ^= bit
                 grant.append((h, low.bit_length() - 1, bit))
-                busy[h] += 1
         return grant
 
     def give_back(self, grant: Grant) -> None:  # replaced per instance in __init__
@@ -170,7 +190,7 @@ class UnitState:
             self._give_back_same_group(grant)
 
     def _give_back_lane_change(self, grant: Grant) -> None:
-        slots, any_free, busy = self._slots, self.any_free, self.busy_units
+        slots, any_free = self._slots, self.any_free
         for h, pos, bit in grant:
             row = slots[h]
             w = bit.bit_length() - 1
@@ -179,7 +199,6 @@ class UnitState:
                 raise AssertionError(f"unit released twice: cable {h} position {pos} bit {bit}")
             row[w] |= own
             any_free[h] |= bit
-            busy[h] -= 1
 
     def _give_back_same_group(self, grant: Grant) -> None:
         # The positions are released as with lane change; only the group summaries differ.

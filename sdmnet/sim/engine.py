@@ -1098,7 +1098,8 @@ def _final_record(
     nsite, ncable = len(setup.sites), len(setup.cables)
     measured = max(requests, 1)
     capacity = [state.capacity_units(i) for i in range(ncable)]
-    cable_sum = [state.busy_units[h] * m + run.cable_stamp[h] for h in range(ncable)]
+    busy = state.busy_units
+    cable_sum = [busy[h] * m + run.cable_stamp[h] for h in range(ncable)]
     site_sums = [coding.decode(s, run.site_state[s] * m + run.site_stamp[s]) for s in range(nsite)]
     site_histograms = [coding.histograms(s, totals.histograms[s]) for s in range(nsite)]
     offered = run.class_offered.tolist()

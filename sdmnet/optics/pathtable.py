@@ -78,17 +78,22 @@ class ClassedRoute(Route):
 
 def _unit_cores(arch: Architecture, topology: Topology, route: Route, lane_gbps: float) -> tuple[int | None, str]:
     """Cores per unit along ``route``, or None with the reason it has no single unit size."""
-    sizes: dict[int, list[str]] = {}
+    units: dict[str, tuple[str | None, int]] = {}  # per fiber type: why not allowed, cores per unit
+    sizes: dict[int, list[int]] = {}
     for i in route.cables:
         cable = topology.cables[i]
-        fiber = topology.fiber_types[cable.fiber_type]
-        why = why_not_allowed(arch, fiber)
+        unit = units.get(cable.fiber_type)
+        if unit is None:
+            fiber = topology.fiber_types[cable.fiber_type]
+            why = why_not_allowed(arch, fiber)
+            unit = units[cable.fiber_type] = (why, 0 if why else unit_geometry(arch, fiber, lane_gbps).cores_per_unit)
+        why, g = unit
         if why is not None:
             return None, f"cable {cable.key}: {why}"
-        g = unit_geometry(arch, fiber, lane_gbps).cores_per_unit
-        sizes.setdefault(g, []).append(cable.key)
+        sizes.setdefault(g, []).append(i)
     if len(sizes) > 1:
-        parts = ", ".join(f"{g} cores on {'/'.join(keys)}" for g, keys in sorted(sizes.items()))
+        keys = {g: "/".join(topology.cables[i].key for i in members) for g, members in sizes.items()}
+        parts = ", ".join(f"{g} cores on {keys[g]}" for g in sorted(sizes))
         return None, f"unit size differs along the path ({parts})"
     return next(iter(sizes)), ""
 
@@ -100,6 +105,7 @@ def evaluate_route(
     transceiver: TransceiverSpec,
     line: LineSpec | None = None,
     classes: Sequence[TransceiverClass] | None = None,
+    memo: dict | None = None,
 ) -> PathPhysics:
     """Physics of ``route`` for ``arch``'s unit; infeasible if the unit size is not unique.
 
@@ -109,7 +115,7 @@ def evaluate_route(
     """
     hops = [(topology.cables[i], topology.fiber_types[topology.cables[i].fiber_type]) for i in route.cables]
     cores, why = _unit_cores(arch, topology, route, transceiver.lane_gbps)
-    physics = {"line": line, "classes": classes, "switching": arch.switching}
+    physics = {"line": line, "classes": classes, "switching": arch.switching, "memo": memo}
     if cores is not None:
         return evaluate_path(hops, transceiver, cores, **physics)
     # A stand-in unit as wide as the mixed cores, so no unit-width verdict is added to the reason.
@@ -133,13 +139,15 @@ def evaluated_routes(
     classes = scenario_classes(scenario)
     memo = _physics_memo((arch.switching, arch.group), scenario.transceiver, scenario.line, classes)
     cables = [(c.a, c.b, c.length_km, topology.fiber_types[c.fiber_type]) for c in topology.cables]
+    per_cable: dict = {}  # what each cable adds to any route over it (evaluate_path's memo)
     for (a, b), routes in route_table(topology, scenario.run.k_paths).items():
         found = []
         for r in routes:
             key = tuple(cables[i] for i in r.cables)
             phys = memo.get(key)
             if phys is None:
-                phys = memo[key] = evaluate_route(topology, r, arch, scenario.transceiver, scenario.line, classes)
+                phys = memo[key] = evaluate_route(topology, r, arch, scenario.transceiver, scenario.line, classes,
+                                                  per_cable)  # fmt: skip
             found.append((r, phys))
         yield a, b, found
 

@@ -203,8 +203,15 @@ class _Line:
     slot_ghz: float  # narrowest channel slot along the path
 
 
-def _line_of_path(hops: Sequence[tuple[Cable, FiberType]], t: TransceiverSpec, line: LineSpec, switching: str) -> _Line:
-    """Spans, boosters and crosstalk of a path (docs/physics.md, "The amplified line")."""
+def _line_of_path(
+    hops: Sequence[tuple[Cable, FiberType]], t: TransceiverSpec, line: LineSpec, switching: str,
+    memo: dict | None = None,
+) -> _Line:
+    """Spans, boosters and crosstalk of a path (docs/physics.md, "The amplified line").
+
+    ``memo`` (one per transceiver, line and switching: :func:`evaluate_path`) keeps what each
+    cable contributes whatever the path, so the many routes over one cable compute it once.
+    """
     per_core_amps = line.amplifier == "per-core"
     # Cores leave the fiber at an intermediate site when they are switched one by one, or when
     # every core has its own amplifier; at the path's ends they always do.
@@ -222,12 +229,14 @@ def _line_of_path(hops: Sequence[tuple[Cable, FiberType]], t: TransceiverSpec, l
     applies = False
     passive = add + drop + express * max(0, len(hops) - 1)
     previous_fifo_out = 0.0
+    fifo_crosstalk = db_to_linear(line.fifo_crosstalk_db)
     for k, (cable, fiber) in enumerate(hops):
-        length = cable.length_km
-        cable_loss = fiber.attenuation_db_per_km * length + t.connector_loss_db
-        cable_loss += splices_in(length, t.splice_spacing_km) * t.splice_loss_db
-        n = span_count(length, line.span_km)
-        fifo = line.fifo_loss_db if fiber.cores > 1 else 0.0
+        terms = None if memo is None else memo.get(id(cable))
+        if terms is None:
+            terms = _cable_terms(cable, fiber, t, line)
+            if memo is not None:
+                memo[id(cable)] = terms
+        _cable, cable_loss, n, fifo, span, fiber_crosstalk = terms
         first, last = k == 0, k == len(hops) - 1
         fifo_in = fifo if (first or separated_at_sites) else 0.0  # fan-in where the cable starts
         fifo_out = fifo if (last or separated_at_sites) else 0.0  # fan-out where it ends
@@ -235,22 +244,39 @@ def _line_of_path(hops: Sequence[tuple[Cable, FiberType]], t: TransceiverSpec, l
             # A fan-out before and a fan-in after every amplifier: the fan-out's loss is in front
             # of the amplifier (it costs OSNR), the fan-in's after it (made up by its gain).
             fifos = 2 * n if fiber.cores > 1 else 0
-            span_loss = cable_loss / n + fifo
             booster_loss = add if first else express
         else:
             fifos = (fifo_in > 0) + (fifo_out > 0)
-            span_loss = cable_loss / n
             booster_loss = (add if first else express + previous_fifo_out) + fifo_in
         boosters.append(_Booster(booster_loss, reference=max(0, k - 1)))
-        spans.append(_Span(span_fiber(fiber), length / n, span_loss, n, fiber.channels))
+        spans.append(span)
         passive += cable_loss + fifos * line.fifo_loss_db
         previous_fifo_out = fifo_out
-        if crosstalk_applies(fiber):
+        if fiber_crosstalk is not None:
             applies = True
-            crosstalk += fifos * db_to_linear(line.fifo_crosstalk_db)
-            crosstalk += db_to_linear(fiber_crosstalk_per_km_db(fiber) + 10.0 * math.log10(length))
+            crosstalk += fifos * fifo_crosstalk
+            crosstalk += fiber_crosstalk
     slot = min((line.channel_slot_ghz(f.channels) for _, f in hops), default=0.0)
     return _Line(tuple(spans), tuple(boosters), crosstalk, applies, passive, slot)
+
+
+def _cable_terms(
+    cable: Cable, fiber: FiberType, t: TransceiverSpec, line: LineSpec
+) -> tuple[Cable, float, int, float, _Span, float | None]:
+    """What one cable contributes to any path over it: ``(cable, loss, spans, fan-in/fan-out
+    loss, its span group, its own crosstalk or None where crosstalk does not apply)``."""
+    length = cable.length_km
+    cable_loss = fiber.attenuation_db_per_km * length + t.connector_loss_db
+    cable_loss += splices_in(length, t.splice_spacing_km) * t.splice_loss_db
+    n = span_count(length, line.span_km)
+    fifo = line.fifo_loss_db if fiber.cores > 1 else 0.0
+    # With per-core amplifiers the fan-out in front of every amplifier is part of the span loss.
+    span_loss = cable_loss / n + fifo if line.amplifier == "per-core" else cable_loss / n
+    span = _Span(span_fiber(fiber), length / n, span_loss, n, fiber.channels)
+    own = None
+    if crosstalk_applies(fiber):
+        own = db_to_linear(fiber_crosstalk_per_km_db(fiber) + 10.0 * math.log10(length))
+    return cable, cable_loss, n, fifo, span, own
 
 
 @dataclass(frozen=True)
@@ -261,24 +287,41 @@ class _Budget:
     gsnr_db: float
 
 
-def _budget(path_line: _Line, line: LineSpec, cls: TransceiverClass) -> _Budget:
-    """Noise of ``path_line`` for a class: ASE of every amplifier, NLI of every span, crosstalk."""
-    rate = cls.symbol_rate_gbaud
+def _budget(path_line: _Line, line: LineSpec, cls: TransceiverClass, memo: dict | None = None) -> _Budget:
+    """Noise of ``path_line`` for a class: ASE of every amplifier, NLI of every span, crosstalk.
+
+    ``memo``: as for :func:`_line_of_path`; a span group's launch power and noise are kept per
+    class.
+    """
     launches = []
     inv_ase = inv_nli = 0.0
     for span in path_line.spans:
-        ase = amplifier_ase_w(span.loss_db, line.amplifier_nf_db)
-        spacing = line.channel_slot_ghz(span.channels)
-        eta = nli_coefficient(span.fiber, span.span_km, rate, spacing, span.channels)
-        power = optimum_launch_w(ase, eta) if line.launch_dbm is None else db_to_linear(line.launch_dbm) * 1e-3
+        terms = None if memo is None else memo.get((id(span), id(cls)))
+        if terms is None:
+            terms = _span_terms(span, line, cls)
+            if memo is not None:
+                memo[(id(span), id(cls))] = terms
+        _span, _cls, power, ase_term, nli_term = terms
         launches.append(power)
-        inv_ase += span.count * ase / power
-        inv_nli += span.count * eta * power * power
+        inv_ase += ase_term
+        inv_nli += nli_term
     for booster in path_line.boosters:
         if booster.loss_db > 0:  # with no loss to make up there is no booster
             inv_ase += amplifier_ase_w(booster.loss_db, line.amplifier_nf_db) / launches[booster.reference]
-    inv_xt = path_line.crosstalk * defaults.OSNR_REFERENCE_GHZ / rate
+    inv_xt = path_line.crosstalk * defaults.OSNR_REFERENCE_GHZ / cls.symbol_rate_gbaud
     return _Budget(linear_to_db(1.0 / inv_ase), linear_to_db(1.0 / (inv_ase + inv_nli + inv_xt)))
+
+
+def _span_terms(
+    span: _Span, line: LineSpec, cls: TransceiverClass
+) -> tuple[_Span, TransceiverClass, float, float, float]:
+    """A span group's launch power, and its ASE and NLI over that power for a class (the span
+    and class ride along so that the memo's keys stay theirs)."""
+    ase = amplifier_ase_w(span.loss_db, line.amplifier_nf_db)
+    spacing = line.channel_slot_ghz(span.channels)
+    eta = nli_coefficient(span.fiber, span.span_km, cls.symbol_rate_gbaud, spacing, span.channels)
+    power = optimum_launch_w(ase, eta) if line.launch_dbm is None else db_to_linear(line.launch_dbm) * 1e-3
+    return span, cls, power, span.count * ase / power, span.count * eta * power * power
 
 
 def evaluate_path(
@@ -289,6 +332,7 @@ def evaluate_path(
     line: LineSpec | None = None,
     classes: Sequence[TransceiverClass] | None = None,
     switching: str = "independent",
+    memo: dict | None = None,
 ) -> PathPhysics:
     """Evaluate a path given as (cable, fiber type) per hop, for units of ``cores_per_unit`` cores.
 
@@ -309,6 +353,10 @@ def evaluate_path(
     switching : str
         The architecture's switching, which decides switch losses and where cores are fanned
         out (docs/physics.md).
+    memo : dict, optional
+        What each cable and span group contributes, kept across calls that share the
+        transceiver, line, classes and switching (a fresh dict per such set: the caller's).
+        Every figure is the same with or without it.
 
     Returns
     -------
@@ -354,7 +402,7 @@ def evaluate_path(
             deterministic_ps += fiber.dgd_ps_per_km * L
     spread = math.sqrt(random_variance) + deterministic_ps
     mdl_db = math.sqrt(mdl_variance)
-    path_line = _line_of_path(hops, t, line, switching)
+    path_line = _line_of_path(hops, t, line, switching, memo)
     # NaN, not -inf: crosstalk is not a figure of a path whose signals have no neighbours.
     crosstalk = linear_to_db(path_line.crosstalk) if path_line.crosstalk_applies else math.nan
 
@@ -374,7 +422,7 @@ def evaluate_path(
     chosen = closest = None
     shortfalls = []
     for cls in tried:
-        budget = _budget(path_line, line, cls)
+        budget = _budget(path_line, line, cls, memo)
         taps = mimo_taps_for_spread(spread, t, cls.symbol_rate_gbaud) if needs_mimo else 0
         trial = (cls, budget, taps)
         if closest is None or budget.gsnr_db - cls.required_osnr_db > closest[1].gsnr_db - closest[0].required_osnr_db:

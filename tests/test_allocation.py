@@ -181,3 +181,34 @@ def test_fiber_state_takes_lowest_fibers_and_releases_exactly():
     assert state.take([1], 2) == [(1, 0, 1), (1, 0, 2)]
     with pytest.raises(AssertionError, match="released twice"):
         state.give_back(a[:1] + a[:1])
+
+
+def _snapshot(state: UnitState):
+    return [list(row) for row in state._slots], list(state.any_free), [list(g) for g in state.group_free]
+
+
+@pytest.mark.parametrize("seed", range(40))
+def test_a_demand_of_several_units_is_first_fit_unit_by_unit_or_refused_untouched(seed):
+    # Reference: the same demand taken one unit at a time (first fit after each unit).  A demand
+    # that fits gets exactly those units; one that does not leaves the state as it was.
+    rng = random.Random(seed)
+    fibers, groups, channels = rng.randint(1, 2), rng.randint(1, 3), rng.randint(1, 4)
+    state = UnitState([fibers] * 3, [groups] * 3, [channels] * 3, lane_change=True)
+    for _ in range(rng.randint(0, 3 * fibers * groups * channels)):
+        state.take(rng.sample([0, 1, 2], rng.randint(1, 3)), 1)
+    cables, n = rng.sample([0, 1, 2], rng.randint(1, 3)), rng.randint(1, 4)
+    before = _snapshot(state)
+    reference = UnitState([fibers] * 3, [groups] * 3, [channels] * 3, lane_change=True)
+    reference._slots, reference.any_free = [list(r) for r in state._slots], list(state.any_free)
+    one_by_one = []
+    for _ in range(n):
+        unit = reference.take(cables, 1)
+        if unit is None:
+            one_by_one = None
+            break
+        one_by_one += unit
+    grant = state.take(cables, n)
+    if one_by_one is None:
+        assert grant is None and _snapshot(state) == before
+    else:
+        assert grant == one_by_one

@@ -200,3 +200,27 @@ def test_path_table_is_fast_on_a_ring():
     elapsed = time.perf_counter() - start
     assert len(table) == 66 * 2  # a ring has exactly two loop-free routes per pair
     assert elapsed < 2.0
+
+
+def test_each_route_s_physics_is_evaluated_once_and_is_what_a_fresh_evaluation_gives():
+    from sdmnet.optics.classes import scenario_classes
+    from sdmnet.optics.pathtable import clear_physics_cache, evaluate_route, evaluated_routes
+
+    base = triangle()
+    arch = base.architectures[0]
+    clear_physics_cache()
+    first = {(a, b): found for a, b, found in evaluated_routes(base, arch)}
+    for found in first.values():
+        for route, phys in found:
+            fresh = evaluate_route(base.topology, route, arch, base.transceiver, base.line, scenario_classes(base))
+            assert phys == fresh
+    # Other fiber counts leave the physics as it was: the very same results come back.
+    more = replace(base, topology=base.topology.with_fiber_pairs({c.key: 5 for c in base.topology.cables}))
+    again = {(a, b): found for a, b, found in evaluated_routes(more, arch)}
+    assert all(p is q for pair in first for (_r, p), (_s, q) in zip(first[pair], again[pair]))
+    # A longer cable is another route for the physics.
+    longer = replace(base, topology=replace(base.topology, cables=(
+        replace(base.topology.cables[0], length_km=151.0), *base.topology.cables[1:])))  # fmt: skip
+    changed = {(a, b): found for a, b, found in evaluated_routes(longer, arch)}
+    lengths = [phys.length_km for _r, phys in changed[("D1", "D2")]]
+    assert 151.0 in lengths and 150.0 not in lengths

@@ -13,6 +13,7 @@ import math
 import numpy as np
 import pytest
 from builders import fiber_type, scenario, shortest_routes, single_cable
+from test_engine import erlang_b
 
 from sdmnet.inputs.model import Architecture
 from sdmnet.sim.engine import prepare, simulate_replication
@@ -71,17 +72,8 @@ def _erlang_records(warmup, replications=200, requests=200):
     return [simulate_replication(setup, 30.0, 3, r, requests, warmup) for r in range(replications)]
 
 
-def _erlang_b(servers: int, load: float) -> float:
-    # Erlang B recursion B(n) = A B(n-1) / (n + A B(n-1)), B(0) = 1 (any teletraffic text, e.g.
-    # Iversen, Teletraffic Engineering and Network Planning, ch. 4).
-    b = 1.0
-    for n in range(1, servers + 1):
-        b = load * b / (n + load * b)
-    return b
-
-
 def test_the_chosen_warm_up_removes_the_empty_start_bias():
-    exact = _erlang_b(40, 30.0)  # 0.0144
+    exact = erlang_b(40, 30.0)  # 0.0144, the recursion of test_engine (Iversen, ch. 4)
     cold = _erlang_records(0)
     iv = ratio_interval([r.blocked for r in cold], [r.requests for r in cold], 0.999)
     assert iv.high < exact  # an empty start blocks too little

@@ -13,8 +13,9 @@ equal length.  A search of our own gives the same routes much faster: it runs th
 iterations on plain lists, each spur search an A* guided by the exact distances to the target
 (one reverse Dijkstra per target), and it notes every place where two paths come within a
 rounding error of each other.  Where such a near-tie could change the answer (which path a
-spur search returns, or which candidate comes out next), the pair is handed to networkx itself,
-so ties keep networkx's order.
+spur search returns, or which candidate comes out next), networkx's own spur search is replayed
+step for step on the same lists (:meth:`_Network.bidirectional`), so ties keep networkx's order
+and its float sums; networkx itself is not needed to find routes.
 """
 
 from __future__ import annotations
@@ -537,4 +538,6 @@ def _link_to_whole(net: _Network) -> None:
         if all(c in where for c in cables):
             net.parent = other
             net.parent_cable = [where[c] for c in cables]
+            # Kept longest: every cut of a plan comes back to it.
+            _NETWORKS[other.shape] = _NETWORKS.pop(other.shape)
             return

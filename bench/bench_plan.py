@@ -2,11 +2,11 @@
 
 Run with ``.venv/bin/python bench/bench_plan.py [--sites N] [--load E] [--jobs J]``.
 
-The region (invented for the benchmark, seed fixed): ``N`` datacenter sites scattered over a
-square of 500 km, joined by a ring (sites in order of their angle around the centre) plus a cable
-from every site to its two nearest neighbours; one pair of weakly coupled 7-core fiber with 64
-channels per cable; uniform traffic of 1, 2 and 4-lane demands (100/200/400 Gb/s at 100 Gb/s a
-lane); k = 3 paths.  Two architectures are planned: per core (independent, lane change) and joint.
+The region is ``bench_scale.py``'s generated metro region (one generator for both benchmarks,
+invented, seed fixed): ``N`` datacenter sites joined by a ring plus a cable from every site to its
+two nearest neighbours; one pair of weakly coupled 7-core fiber with 64 channels per cable;
+uniform traffic of 1, 2 and 4-lane demands (100/200/400 Gb/s at 100 Gb/s a lane); k = 3 paths.
+Two architectures are planned: per core (independent, lane change) and joint.
 
 Printed per architecture: candidates simulated, replications simulated over all of them (work
 that machine load does not change), planned fiber pairs, blocking with its interval,
@@ -26,60 +26,28 @@ import sys
 import tempfile
 import time
 
-import numpy as np
+from bench_scale import DEMANDS, LANE_GBPS, metro_region
 
 import sdmnet
 import sdmnet.sim.engine as engine
 from sdmnet import api
-from sdmnet.inputs.model import (
-    Architecture,
-    Cable,
-    FiberType,
-    PlanSpec,
-    RunSpec,
-    Scenario,
-    Site,
-    Topology,
-    TrafficSpec,
-    TransceiverSpec,
-)
+from sdmnet.inputs.model import Architecture, PlanSpec, RunSpec, Scenario, TrafficSpec, TransceiverSpec
 
-SIZES = ((100.0, 0.5), (200.0, 0.3), (400.0, 0.2))
 ARCHITECTURES = (
     Architecture("per-core", "independent", lane_change=True),
     Architecture("joint", "joint"),
 )
 
 
-def region(sites: int, seed: int = 3, side_km: float = 500.0) -> Topology:
-    """A ring plus nearest-neighbour cables over ``sites`` random datacenters."""
-    rng = np.random.default_rng(seed)
-    xy = rng.uniform(0.0, side_km, size=(sites, 2))
-    ids = [f"R{i:02d}" for i in range(sites)]
-    centre = xy.mean(axis=0)
-    order = np.argsort(np.arctan2(xy[:, 1] - centre[1], xy[:, 0] - centre[0]))
-    edges = {tuple(sorted((int(a), int(b)))) for a, b in zip(order, np.roll(order, -1))}
-    dist = np.hypot(*(xy[:, None, :] - xy[None, :, :]).transpose(2, 0, 1))
-    for i in range(sites):
-        for j in np.argsort(dist[i])[1:3]:
-            edges.add(tuple(sorted((i, int(j)))))
-    fiber = FiberType("mcf7", 7, "weak", 1, 64, 0.22, crosstalk_db_per_km=-61.4)
-    cables = tuple(
-        Cable(ids[a], ids[b], max(5.0, round(float(dist[a, b]) * 1.2, 1)), fiber.name, 1) for a, b in sorted(edges)
-    )
-    site_list = tuple(Site(ids[i], "datacenter", x_km=float(xy[i, 0]), y_km=float(xy[i, 1])) for i in range(sites))
-    return Topology(f"region-{sites}", {fiber.name: fiber}, site_list, cables)
-
-
 def region_scenario(sites: int, load: float, requests: int, replications: int) -> Scenario:
     """The benchmark scenario: the region, its traffic and a 1 % target."""
     return Scenario(
         name="bench-plan",
-        topology=region(sites),
+        topology=metro_region(sites),
         seed=2024,
-        traffic=TrafficSpec("uniform", (load,), 1.0, SIZES),
+        traffic=TrafficSpec("uniform", (load,), 1.0, DEMANDS),
         # Long-haul figures: amplified spans make the loss of a path no limit here.
-        transceiver=TransceiverSpec(lane_gbps=100.0, reach_km=2500.0, power_budget_db=1000.0),
+        transceiver=TransceiverSpec(lane_gbps=LANE_GBPS, reach_km=2500.0, power_budget_db=1000.0),
         run=RunSpec(requests, requests // 10, replications, 3),
         architectures=ARCHITECTURES,
         plan=PlanSpec(target_blocking=0.01),
@@ -112,7 +80,7 @@ class PrepareCounter:
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sites", type=int, default=30)
-    parser.add_argument("--load", type=float, default=3000.0)
+    parser.add_argument("--load", type=float, default=1500.0)
     parser.add_argument("--requests", type=int, default=20_000)
     parser.add_argument("--replications", type=int, default=5)
     parser.add_argument("--jobs", type=int, default=1)

@@ -4,7 +4,7 @@ The wheel is built from a copy of the sources and installed, without its depende
 new virtual environment that borrows the test environment's libraries through a ``.pth`` line
 (the borrowed folder's own ``.pth`` files, among them the editable install of this checkout,
 are not read that way).  Everything then runs from a folder outside the repository, so only
-what the wheel ships can be found.  ``bench/bench_install.py`` does the full thing: a fresh
+what the wheel ships can be found.  ``bench/check_install.py`` does the full thing: a fresh
 venv, ``pip install .`` with every dependency, ``sdmnet demo``.
 """
 

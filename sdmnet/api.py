@@ -255,7 +255,7 @@ def plan(
     figures: bool = True,
     memory_limit: float | None = None,
 ):
-    """Fewest fiber pairs per cable meeting the target blocking: writes ``plan.csv``, its
+    """Least-cost fiber pairs per cable meeting the target blocking: writes ``plan.csv``, its
     totals, run.json (:func:`sdmnet.planning.run.run_plan`) and, with ``figures``,
     ``report.html`` and its figures."""
     from .planning.run import run_plan

@@ -180,16 +180,7 @@ def simulate(
     prices = {name: unit_prices(scenario, module) for name, module in modules.items()}
     summary = summary_table(scenario, points, setups, resources, prices)
     summary = add_module_columns(summary, modules)
-    notes = []
-    if memory.optional is not None and memory.optional.nbytes > room:
-        # The simulation fits but the estimate beside it does not: leave its columns empty.
-        estimate_net = pd.DataFrame(columns=["architecture", "load_erlang", "blocking", "bandwidth_blocking"])
-        notes.append(
-            f"the analytic estimate is left out (its columns are empty): {memory.optional.what} would need "
-            f"about {format_bytes(memory.optional.nbytes)} of memory"
-        )
-    else:
-        estimate_net, _ = estimate_scenario(scenario)
+    estimate_net, notes = _estimate_beside(scenario, memory, room)
     summary = attach_estimate(summary, estimate_net, setups)
     classes = class_table(points, setups)
     pairs = pair_table(points, setups)
@@ -212,18 +203,44 @@ def simulate(
     return SimulationResult(out, summary, classes, pairs, sites, cables, points, wall, notes)
 
 
+def _estimate_beside(scenario: Scenario, memory: Any, room: float) -> tuple[pd.DataFrame, list[str]]:
+    """The analytic estimate simulate writes beside its results (``[run] estimate``), and what
+    the user should know about it (notes, one sentence each)."""
+    choice = scenario.run.estimate
+    empty = pd.DataFrame(columns=["architecture", "load_erlang", "blocking", "bandwidth_blocking", "method"])
+    if choice == "none":
+        return empty, []
+    if memory.optional is not None and memory.optional.nbytes > room:
+        # The simulation fits but the estimate beside it does not: leave its columns empty.
+        return empty, [
+            f"the analytic estimate is left out (its columns are empty): {memory.optional.what} would need "
+            f"about {format_bytes(memory.optional.nbytes)} of memory"
+        ]
+    network, _ = estimate_scenario(scenario, method=choice)
+    notes = []
+    if choice == "auto" and (network["method"] == "fixed-point").any():
+        names = ", ".join(dict.fromkeys(network.loc[network["method"] == "fixed-point", "architecture"]))
+        notes.append(
+            f"the estimate columns of {names} come from the plain Erlang fixed point (first route only, no "
+            f"channel continuity): the routed estimate would be slow on a network this large "
+            f'(docs/estimate.md); [run] estimate = "routed" or --estimate routed asks for it'
+        )
+    return network, notes
+
+
 @_one_writer
 def estimate(
-    scenario: Scenario, out_dir: Path | str, *, memory_limit: float | None = None
+    scenario: Scenario, out_dir: Path | str, *, memory_limit: float | None = None, method: str = "routed"
 ) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Analytic estimate, no simulation: writes ``estimate.csv`` and ``estimate_pairs.csv``.
 
-    Erlang B / Kaufman-Roberts per cable, coupled by the Erlang fixed point (docs/estimate.md).
+    Erlang B / Kaufman-Roberts per cable, coupled by the routed reduced-load fixed point, or with
+    ``method="fixed-point"`` the plain Erlang fixed point (docs/estimate.md).
     """
     started = time.perf_counter()
     require_memory(scenario, "estimate", limit=memory_limit)
     out = ensure_out_dir(out_dir)
-    network, pairs = estimate_scenario(scenario)
+    network, pairs = estimate_scenario(scenario, method=method)
     write_table(network, out / "estimate.csv")
     write_table(pairs, out / "estimate_pairs.csv")
     write_json(run_manifest(scenario, "estimate", time.perf_counter() - started), out / "run.json")

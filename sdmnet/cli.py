@@ -74,6 +74,8 @@ def _load_scenario(args: argparse.Namespace):
         overrides["seed"] = args.seed
     if getattr(args, "requests", None) is not None:
         overrides["run.requests"] = args.requests
+    if getattr(args, "estimate", None) is not None:
+        overrides["run.estimate"] = args.estimate
     if getattr(args, "replications", None) is not None:
         overrides["run.replications"] = args.replications
     return load_scenario(Path(args.scenario), overrides=overrides or None)
@@ -163,7 +165,7 @@ def cmd_estimate(args: argparse.Namespace) -> int:
     from . import api
 
     out = _out(args, "estimate")
-    network, _pairs = api.estimate(scenario, out, memory_limit=args.memory_limit)
+    network, _pairs = api.estimate(scenario, out, memory_limit=args.memory_limit, method=args.method)
     cols = ["architecture", "load_erlang", "blocking", "bandwidth_blocking"]
     print(network[cols].to_string(index=False, float_format=lambda x: f"{x:.4g}"))
     print(f"results in {out}/")
@@ -285,12 +287,25 @@ def build_parser() -> argparse.ArgumentParser:
     _add_run_options(p)
     p.add_argument("--scheduler", metavar="ADDRESS", help="run the sweep on a Dask scheduler (tcp://host:port)")
     p.add_argument("--resume", action="store_true", help="keep finished tasks in the output folder, run the rest")
+    p.add_argument(
+        "--estimate",
+        choices=("auto", "routed", "fixed-point", "none"),
+        help="the analytic estimate beside the results (overrides [run] estimate; default auto: routed "
+        "while cheap, the plain Erlang fixed point on large networks)",
+    )
     p.set_defaults(func=cmd_simulate)
 
     p = verbs.add_parser("estimate", help="analytic blocking estimate (Erlang B / Kaufman-Roberts / fixed point)")
     p.add_argument("scenario", metavar="SCENARIO")
     _add_out(p)
     _add_memory(p)
+    p.add_argument(
+        "--method",
+        choices=("routed", "fixed-point", "auto"),
+        default="routed",
+        help="routed reduced-load fixed point (default), the plain Erlang fixed point (fast on large "
+        "networks), or auto (routed while cheap)",
+    )
     p.set_defaults(func=cmd_estimate)
 
     p = verbs.add_parser("paths", help="candidate paths with their physics and feasibility")

@@ -231,3 +231,48 @@ def test_site_labels_of_a_crowded_cluster_do_not_cover_each_other():
     assert len(ax.texts) == 5
     assert _overlapping(_label_boxes(ax)) == []
     plt.close(fig)
+
+
+@pytest.mark.parametrize("name", sorted(DRAWINGS))
+def test_everything_drawn_lies_inside_the_figure(name: str, tmp_path: Path, monkeypatch) -> None:
+    # Figures are saved at their own size (no "tight" bounding box), so a legend, label or note
+    # outside the figure would be cut off the PNG.
+    from matplotlib.figure import Figure
+
+    saved = []
+    original = Figure.savefig
+
+    def measure_then_save(fig, *args, **kwargs):
+        fig.draw_without_rendering()
+        box = fig.get_tightbbox()  # inches
+        width, height = fig.get_size_inches()
+        saved.append((box.x0, box.y0, box.x1 - width, box.y1 - height))
+        assert "bbox_inches" not in kwargs
+        return original(fig, *args, **kwargs)
+
+    monkeypatch.setattr(Figure, "savefig", measure_then_save)
+    DRAWINGS[name](tmp_path / "fig.png")
+    assert len(saved) == 1
+    slack = 0.01  # inches: anti-aliasing of an edge
+    left, bottom, right_over, top_over = saved[0]
+    assert left >= -slack and bottom >= -slack, f"drawn left of or below the figure: {saved[0]}"
+    assert right_over <= slack and top_over <= slack, f"drawn right of or above the figure: {saved[0]}"
+
+
+def test_log_tick_labels_are_plain_text_powers_of_ten() -> None:
+    from sdmnet.output.figures.look import PlainLogFormatter
+
+    fig, ax = plt.subplots()
+    ax.set_yscale("log")
+    ax.set_ylim(1e-4, 0.5)
+    major = PlainLogFormatter(10.0)
+    major.set_axis(ax.yaxis)
+    major.set_locs([1e-4, 1e-3, 1e-2, 1e-1])
+    assert [major(v) for v in (1e-4, 1e-2, 1.0)] == ["10\u207b\u2074", "10\u207b\u00b2", "10\u2070"]
+    ax.set_ylim(0.01, 0.05)  # less than a decade: minor ticks are labelled too
+    minor = PlainLogFormatter(10.0, labelOnlyBase=False)
+    minor.set_axis(ax.yaxis)
+    minor.set_locs([0.02, 0.03])
+    assert minor(0.03) == "3\u00d710\u207b\u00b2"
+    assert "$" not in major(1e-3) + minor(0.02), "no mathtext: its parser is slow to build"
+    plt.close(fig)

@@ -18,11 +18,14 @@ from ..sim.engine import EngineSetup
 __all__ = ["attach_estimate", "explain_gap"]
 
 
-def explain_gap(setup: EngineSetup, estimate: float, low: float, high: float) -> str:
+def explain_gap(setup: EngineSetup, estimate: float, low: float, high: float, method: str = "routed") -> str:
     """Why the estimate may lie above or below the simulated interval ``[low, high]``.
 
-    Returns an empty string when the estimate lies inside the interval (or no interval exists).
+    ``method``: the estimate's (``"routed"`` or ``"fixed-point"``, which puts every pair on its
+    first route with no continuity rule).  Returns an empty string when the estimate lies inside
+    the interval (or no interval exists).
     """
+    plain = method == "fixed-point"
     if math.isnan(low) or math.isnan(high) or low <= estimate <= high:
         return ""
     arch = setup.architecture
@@ -33,14 +36,18 @@ def explain_gap(setup: EngineSetup, estimate: float, low: float, high: float) ->
         direction = "estimate above the interval"
         if multi_hop:
             reasons.append("cables assumed to block independently (overestimates on cables in series)")
-        if multi_hop and not setup.whole_fiber:
+        if multi_hop and not setup.whole_fiber and not plain:
             reasons.append("free channels taken as spread at random (first fit packs them, so routes clash less)")
+        if alternates and plain:
+            reasons.append("alternate routes left out (the plain fixed point puts each pair on its first route)")
         if arch.share and not setup.whole_fiber:
             reasons.append("grooming approximated (spare capacity of lit units taken as uniform)")
     else:
         direction = "estimate below the interval"
-        if alternates:
+        if alternates and not plain:
             reasons.append("overflow to later routes offered as Poisson traffic (it is peakier: low at light load)")
+        if multi_hop and not setup.whole_fiber and plain:
+            reasons.append("no channel continuity (the plain fixed point takes any free units on each hop)")
         if arch.share and not setup.whole_fiber:
             reasons.append("grooming approximated (spare capacity of lit units taken as uniform)")
     if not reasons:
@@ -52,19 +59,23 @@ def attach_estimate(
     summary: pd.DataFrame, estimate: pd.DataFrame, setups: dict[str, EngineSetup]
 ) -> pd.DataFrame:
     """``summary`` with ``estimate_blocking``, ``estimate_bandwidth_blocking``,
-    ``estimate_outside_interval`` and ``estimate_gap`` columns (matched on architecture and load)."""
+    ``estimate_outside_interval``, ``estimate_gap`` and ``estimate_method`` columns (matched on
+    architecture and load; the method is ``"none"`` where the estimate has no row)."""
     est = estimate.set_index(["architecture", "load_erlang"])
     out = summary.copy()
-    blocking, bandwidth, outside, notes = [], [], [], []
+    blocking, bandwidth, outside, notes, methods = [], [], [], [], []
     for row in summary.itertuples(index=False):
         key = (row.architecture, row.load_erlang)
         if key in est.index:
             b = float(est.loc[key, "blocking"])
             bw = float(est.loc[key, "bandwidth_blocking"])
+            method = str(est.loc[key, "method"]) if "method" in est.columns else "routed"
         else:
             b = bw = math.nan
+            method = "none"
         setup = setups[row.architecture]
-        note = "" if math.isnan(b) else explain_gap(setup, b, row.blocking_ci_low, row.blocking_ci_high)
+        note = "" if math.isnan(b) else explain_gap(setup, b, row.blocking_ci_low, row.blocking_ci_high, method)
+        methods.append(method)
         blocking.append(b)
         bandwidth.append(bw)
         outside.append(bool(note))
@@ -73,4 +84,5 @@ def attach_estimate(
     out["estimate_bandwidth_blocking"] = bandwidth
     out["estimate_outside_interval"] = outside
     out["estimate_gap"] = notes
+    out["estimate_method"] = methods
     return out

@@ -11,6 +11,11 @@ For each architecture the network becomes a loss network of *units* (docs/model.
   point (:func:`sdmnet.analysis.reduced_load.routed_fixed_point`); grooming (``share``) by a
   heuristic share of demands that ride lit units.
 
+Two methods (:data:`METHODS`): ``"routed"`` (the above, the default) and ``"fixed-point"``, the
+plain Erlang fixed point: each stream on its first route only, no continuity rule.  The routed
+method's work grows with the hops of every candidate route; ``"auto"`` takes it while the route
+hops times the load points stay within :data:`ROUTED_WORK_LIMIT`, the fixed point above.
+
 What each approximation assumes and where it fails: ``docs/estimate.md``.
 """
 
@@ -34,11 +39,14 @@ from ..sim.provisioning import provision_fiber_paths
 from .reduced_load import RoutedStream, RouteOption, routed_fixed_point
 
 __all__ = [
+    "METHODS",
     "NETWORK_COLUMNS",
     "PAIR_COLUMNS",
+    "ROUTED_WORK_LIMIT",
     "RouteFinder",
     "estimate",
     "estimate_architecture",
+    "routed_work",
 ]
 
 NETWORK_COLUMNS = (
@@ -49,10 +57,22 @@ NETWORK_COLUMNS = (
     "bandwidth_blocking",
     "iterations",
     "converged",
+    "method",
 )
 PAIR_COLUMNS = ("architecture", "load_erlang", "a", "b", "blocking", "bandwidth_blocking")
 
 RouteFinder = Callable[[Scenario, Architecture], dict[tuple[str, str], list[Route]]]
+
+#: What the estimate can run: the routed reduced-load fixed point (alternate routes in order,
+#: channel continuity) or the plain Erlang fixed point (first route only, no continuity).
+METHODS = ("routed", "fixed-point")
+
+#: ``method="auto"`` runs the routed estimate up to this many route hops (summed over every
+#: stream and every route it tries) times load points, and the Erlang fixed point above.  The
+#: routed estimate took 20 s of CPU at 398,000 (the 100-site region of bench/bench_scale.py),
+#: 4.6 s at 113,000 (60 sites) and 0.3 s at 19,000 (30 sites), one load point each; the bundled
+#: scenarios stay under 12,000 (docs/estimate.md, "What it costs on large networks").
+ROUTED_WORK_LIMIT = 100_000
 
 # Settings of the fixed point used for every estimate.
 _DAMPING = 0.5
@@ -183,6 +203,34 @@ def _solve_routed(model: _Model, stream_loads: np.ndarray) -> tuple[np.ndarray, 
     return solved.stream_blocking, solved.iterations, solved.converged
 
 
+def _solve_first_route(model: _Model, stream_loads: np.ndarray) -> tuple[np.ndarray, int, bool]:
+    """Stream blocking (P, S) by the plain Erlang fixed point: each stream on its first route, no
+    continuity rule (the routed fixed point with one option and no slots is exactly that)."""
+    first = [RoutedStream((RouteOption(s.options[0].links, s.options[0].units),), s.load_scale)
+             for s in model.streams]  # fmt: skip
+    solved = routed_fixed_point(model.capacities, first, stream_loads, damping=_DAMPING, tol=_TOL,
+                                max_iter=_MAX_ITER)  # fmt: skip
+    return solved.stream_blocking, solved.iterations, solved.converged
+
+
+def routed_work(model: _Model, points: int) -> int:
+    """Route hops over every stream and every route it tries, times ``points``: what the routed
+    estimate's cost grows with (compared with :data:`ROUTED_WORK_LIMIT`)."""
+    return points * sum(len(option.links) for stream in model.streams for option in stream.options)
+
+
+def _method_for(model: _Model, points: int, method: str) -> str:
+    """The method that runs: ``method``, or for ``"auto"`` the routed one while it is cheap.
+    Fiber paths provisioned per pair are always solved over their pools (no continuity, cheap)."""
+    if method not in (*METHODS, "auto"):
+        raise ValueError(f"method must be one of {', '.join((*METHODS, 'auto'))}, got {method!r}")
+    if model.provisioned:
+        return "routed"
+    if method == "auto":
+        return "routed" if routed_work(model, points) <= ROUTED_WORK_LIMIT else "fixed-point"
+    return method
+
+
 def _solve_provisioned(model: _Model, loads: np.ndarray, stream_loads: np.ndarray) -> tuple[np.ndarray, int, bool]:
     """Stream blocking (P, S) in fiber paths provisioned at each load point.
 
@@ -223,7 +271,7 @@ def _ratio(num: np.ndarray, den: np.ndarray) -> np.ndarray:
 
 
 def estimate_architecture(
-    scenario: Scenario, arch: Architecture, route_finder: RouteFinder | None = None
+    scenario: Scenario, arch: Architecture, route_finder: RouteFinder | None = None, *, method: str = "routed"
 ) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Estimate of one architecture at every load point of the scenario.
 
@@ -236,12 +284,14 @@ def estimate_architecture(
     route_finder : callable, optional
         ``(scenario, arch) -> {pair: [Route, ...]}``; each pair tries its routes in order.
         Default: :func:`sdmnet.optics.pathtable.feasible_routes` (physically feasible routes).
+    method : {"routed", "fixed-point", "auto"}
+        See :data:`METHODS`; ``"auto"``: routed up to :data:`ROUTED_WORK_LIMIT`.
 
     Returns
     -------
     network, pairs : pandas.DataFrame
-        Columns :data:`NETWORK_COLUMNS` (one row per load point) and :data:`PAIR_COLUMNS`
-        (one row per load point and datacenter pair with traffic).
+        Columns :data:`NETWORK_COLUMNS` (one row per load point; ``method`` the one that ran) and
+        :data:`PAIR_COLUMNS` (one row per load point and datacenter pair with traffic).
 
     Raises
     ------
@@ -250,6 +300,7 @@ def estimate_architecture(
     """
     model = _build(scenario, arch, route_finder or feasible_routes)
     loads = np.array(scenario.traffic.loads_erlang, dtype=float)
+    ran = _method_for(model, loads.size, method)
     n_points, n_pairs = loads.size, len(model.pairs)
     # Offered load and blocked load per pair, in requests and in Gb/s, for every load point.
     offered = loads[:, None] * model.pair_share[None, :]
@@ -263,6 +314,8 @@ def estimate_architecture(
         stream_loads = loads[:, None] * model.stream_rate[None, :]
         if model.provisioned:
             stream_b, iterations, converged = _solve_provisioned(model, loads, stream_loads)
+        elif ran == "fixed-point":
+            stream_b, iterations, converged = _solve_first_route(model, stream_loads)
         else:
             stream_b, iterations, converged = _solve_routed(model, stream_loads)
         lost = stream_loads * stream_b
@@ -280,6 +333,7 @@ def estimate_architecture(
             "bandwidth_blocking": _ratio(blocked_gbps.sum(axis=1), offered_gbps.sum(axis=1)),
             "iterations": iterations,
             "converged": converged,
+            "method": ran,
         },
         columns=list(NETWORK_COLUMNS),
     )
@@ -297,7 +351,9 @@ def estimate_architecture(
     return network, pairs
 
 
-def estimate(scenario: Scenario, *, route_finder: RouteFinder | None = None) -> tuple[pd.DataFrame, pd.DataFrame]:
+def estimate(
+    scenario: Scenario, *, route_finder: RouteFinder | None = None, method: str = "routed"
+) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Analytic estimate of every architecture of ``scenario`` at every load point.
 
     Parameters
@@ -306,21 +362,23 @@ def estimate(scenario: Scenario, *, route_finder: RouteFinder | None = None) -> 
         The scenario.
     route_finder : callable, optional
         See :func:`estimate_architecture`.
+    method : {"routed", "fixed-point", "auto"}
+        See :func:`estimate_architecture` (chosen per architecture with ``"auto"``).
 
     Returns
     -------
     network : pandas.DataFrame
         Columns ``architecture, switching, load_erlang, blocking, bandwidth_blocking`` (the keys
         of the simulator's summary.csv) plus ``iterations`` and ``converged`` of the fixed point
-        (the load points of one architecture are solved together and share these two); one row
-        per architecture and load point.
+        (the load points of one architecture are solved together and share these two) and the
+        ``method`` that ran; one row per architecture and load point.
     pairs : pandas.DataFrame
         Columns ``architecture, load_erlang, a, b, blocking, bandwidth_blocking``; one row per
         architecture, load point and datacenter pair with traffic.
     """
     nets, pairs = [], []
     for arch in scenario.architectures:
-        net, pair = estimate_architecture(scenario, arch, route_finder)
+        net, pair = estimate_architecture(scenario, arch, route_finder, method=method)
         nets.append(net)
         pairs.append(pair)
     if not nets:

@@ -46,6 +46,7 @@ Role = Literal["datacenter", "hub"]
 Switching = Literal["independent", "fractional-joint", "joint", "fiber"]
 Pattern = Literal["uniform", "gravity", "matrix"]
 Survive = Literal["none", "cable-cut"]
+EstimateChoice = Literal["auto", "routed", "fixed-point", "none"]
 
 COUPLINGS: tuple[str, ...] = ("weak", "random")
 ROLES: tuple[str, ...] = ("datacenter", "hub")
@@ -415,6 +416,11 @@ class RunSpec:
         ``max_replications`` (:mod:`sdmnet.sim.precision`).  None: ``replications`` exactly.
     max_replications : int or None
         Most replications per point with ``precision`` (None: ten times ``replications``).
+    estimate : {"auto", "routed", "fixed-point", "none"}
+        The analytic estimate ``simulate`` writes beside its results (summary.csv's
+        ``estimate_*`` columns, :mod:`sdmnet.analysis.estimate`): ``"auto"`` the routed
+        reduced-load estimate while it is cheap and the plain Erlang fixed point on larger
+        networks; ``"none"`` leaves the columns empty.  It does not change the simulation.
     """
 
     requests: int = 20_000
@@ -424,6 +430,7 @@ class RunSpec:
     confidence: float = 0.95
     precision: float | None = None
     max_replications: int | None = None
+    estimate: EstimateChoice = "auto"
 
 
 @dataclass(frozen=True)

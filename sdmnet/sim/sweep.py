@@ -78,8 +78,11 @@ def _strip_sources(value: Any) -> Any:
 
 
 def scenario_fingerprint(scenario: Scenario) -> str:
-    """A digest of everything that shapes the results (file locations left out)."""
-    text = json.dumps(_strip_sources(asdict(scenario)), sort_keys=True, default=str)
+    """A digest of everything that shapes the results (file locations left out, and the choice
+    of analytic estimate, which is computed beside the tasks, not by them)."""
+    data = _strip_sources(asdict(scenario))
+    data["run"].pop("estimate", None)
+    text = json.dumps(data, sort_keys=True, default=str)
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
 

@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 from matplotlib.lines import Line2D
 
-from .look import INK, QUIET, apply_look, architectures_in, footnote, save_figure, style_for, with_look
+from .look import INK, apply_look, architectures_in, footnote, log_axis, save_figure, style_for, suptitle, with_look
 
 __all__ = ["blocking_figure", "estimate_figure"]
 
@@ -84,7 +84,7 @@ def _draw_blocking(
 def _blocking_axes(ax: plt.Axes, column: str) -> str:
     """Log blocking axis against offered load, labelled for ``column``; returns the title's noun."""
     request = column == "blocking"
-    ax.set_yscale("log")
+    log_axis(ax.yaxis)
     ax.set_xlabel("offered load (Erlang)")
     ax.set_ylabel(
         "request blocking probability (share of requests)" if request else "bandwidth blocking ratio (share of Gb/s)"
@@ -115,7 +115,7 @@ def blocking_figure(
         Figure title.
     """
     order = architectures_in(summary)
-    fig, ax = plt.subplots(figsize=(7.2, 4.4))
+    fig, ax = plt.subplots(figsize=(7.2, 4.4), layout="constrained")
     values = list(summary[column]) + [
         v for c in (f"{column}_ci_low", f"{column}_ci_high") if c in summary.columns for v in summary[c]
     ]
@@ -149,7 +149,8 @@ def estimate_figure(estimate: pd.DataFrame, summary: pd.DataFrame | None, path: 
     order = list(
         dict.fromkeys(architectures_in(estimate) + ([] if summary is None else architectures_in(summary)))
     )
-    fig, axes = plt.subplots(1, len(columns), figsize=(5.4 * len(columns), 4.2), squeeze=False)
+    fig, axes = plt.subplots(1, len(columns), figsize=(5.4 * len(columns) + 2.0, 4.2), squeeze=False,
+                             layout="constrained")  # fmt: skip
     any_zero = any_dodge = False
     floors = []
     for ax, column in zip(axes[0], columns):
@@ -180,9 +181,8 @@ def estimate_figure(estimate: pd.DataFrame, summary: pd.DataFrame | None, path: 
         Line2D([], [], color=INK, linestyle="-", label="line: analytic estimate"),
         Line2D([], [], color=INK, marker="o", linestyle="none", label="marker + bar: simulation (95 %)"),
     ]
-    fig.suptitle("Analytic estimate vs simulation", x=0.01, ha="left")
-    fig.tight_layout()
-    fig.legend(handles=handles, loc="lower center", ncols=min(len(handles), 4), bbox_to_anchor=(0.5, -0.12))
+    suptitle(fig, "Analytic estimate vs simulation")
+    fig.legend(handles=handles, loc="outside right upper")
     notes = []
     if any_zero:
         notes.append(
@@ -191,5 +191,5 @@ def estimate_figure(estimate: pd.DataFrame, summary: pd.DataFrame | None, path: 
     if any_dodge:
         notes.append("Simulated points are offset sideways by up to 2 % of the load range for legibility.")
     if notes:
-        fig.text(0.01, -0.16, " ".join(notes), ha="left", va="top", fontsize=7, color=QUIET)
+        footnote(fig, " ".join(notes))
     return save_figure(fig, path)

@@ -9,7 +9,17 @@ import numpy as np
 import pandas as pd
 from matplotlib.ticker import MaxNLocator
 
-from .look import INK, apply_look, architectures_in, bar_style_for, fmt_number, save_figure, style_for, with_look
+from .look import (
+    INK,
+    apply_look,
+    architectures_in,
+    bar_style_for,
+    fmt_number,
+    save_figure,
+    style_for,
+    suptitle,
+    with_look,
+)
 
 __all__ = ["resources_figure", "forecast_figure", "plan_figure"]
 
@@ -40,7 +50,8 @@ def resources_figure(summary: pd.DataFrame, path: Path) -> Path:
     top, when = _at_highest_load(summary)
     names = [str(a) for a in top["architecture"]]
     x = np.arange(len(names))
-    fig, axes = plt.subplots(1, 3, figsize=(11.0, 3.9), gridspec_kw={"width_ratios": [1.5, 1, 1]})
+    fig, axes = plt.subplots(1, 3, figsize=(11.0, 3.9), gridspec_kw={"width_ratios": [1.5, 1, 1]},
+                             layout="constrained")  # fmt: skip
     ax = axes[0]
     width = 0.38
     if "transceiver_lanes_installed" in top.columns:
@@ -99,12 +110,10 @@ def resources_figure(summary: pd.DataFrame, path: Path) -> Path:
         ax.margins(y=0.15)
         apply_look(ax)
         ax.grid(False, axis="x")
-    fig.suptitle(f"Resources per architecture at the highest offered load ({when})", x=0.01, ha="left")
-    fig.tight_layout()
+    suptitle(fig, f"Resources per architecture at the highest offered load ({when})")
     return save_figure(fig, path)
 
 
-@with_look
 def _draw_band(ax, band: pd.DataFrame | None, name: str, column: str, color: object) -> None:
     """Shade the low-high growth range of ``column`` for one architecture, if the band has it."""
     if band is None or band.empty or column not in band.columns or "case" not in band.columns:
@@ -117,6 +126,7 @@ def _draw_band(ax, band: pd.DataFrame | None, name: str, column: str, color: obj
                         alpha=0.18, linewidth=0, label=f"{name}: low-high growth")  # fmt: skip
 
 
+@with_look
 def forecast_figure(totals: pd.DataFrame, path: Path, band: pd.DataFrame | None = None) -> Path:
     """Fiber pairs, transceiver modules, switch ports, cost and watts year by year, per architecture.
 
@@ -144,7 +154,7 @@ def forecast_figure(totals: pd.DataFrame, path: Path, band: pd.DataFrame | None 
     ]
     panels = [w for w in wanted if w[0] in totals.columns]
     order = architectures_in(totals)
-    fig, axes = plt.subplots(1, len(panels), figsize=(3.8 * len(panels), 3.7), squeeze=False)
+    fig, axes = plt.subplots(1, len(panels), figsize=(3.8 * len(panels), 4.0), squeeze=False, layout="constrained")
     for ax, (column, label, title) in zip(axes[0], panels):
         for i, name in enumerate(order):
             part = totals[totals["architecture"].astype(str) == name].sort_values("year", kind="stable")
@@ -156,17 +166,9 @@ def forecast_figure(totals: pd.DataFrame, path: Path, band: pd.DataFrame | None 
         ax.set_title(title)
         ax.xaxis.set_major_locator(MaxNLocator(integer=True))
         apply_look(ax)
-    fig.suptitle("Forecast: equipment needed year by year", x=0.01, ha="left")
-    fig.tight_layout()
+    suptitle(fig, "Forecast: equipment needed year by year")
     handles, labels = axes[0][0].get_legend_handles_labels()
-    fig.legend(
-        handles,
-        labels,
-        title="architecture",
-        loc="upper center",
-        ncols=min(len(order), 5),
-        bbox_to_anchor=(0.5, 0.0),  # below the axes' labels, whatever its rows
-    )
+    fig.legend(handles, labels, title="architecture", loc="outside lower center", ncols=min(len(order), 5))
     return save_figure(fig, path)
 
 
@@ -178,7 +180,7 @@ def plan_figure(plan: pd.DataFrame, path: Path) -> Path:
     cables = list(dict.fromkeys(str(c) for c in plan["cable"]))
     height = 0.8 / max(len(order), 1)
     fig, ax = plt.subplots(
-        figsize=(7.2, 1.2 + 0.22 * len(cables) * max(len(order), 1) ** 0.5 + 0.3 * len(cables))
+        figsize=(7.2, 1.2 + 0.22 * len(cables) * max(len(order), 1) ** 0.5 + 0.3 * len(cables)), layout="constrained"
     )
     y = np.arange(len(cables))
     for i, name in enumerate(order):

@@ -9,10 +9,16 @@ every axis names its unit.
 Every figure is drawn inside matplotlib's defaults overlaid with :data:`LOOK` (:func:`with_look`),
 so a user's matplotlibrc cannot change our output, and saved by :func:`save_figure` with fixed
 metadata, so the same tables always give the same PNG bytes.
+
+Every figure is laid out inside its own size (constrained layout; footnotes in a strip kept free
+at the bottom, :func:`footnote`), so saving needs no "tight" bounding box: that would draw each
+figure twice, once to measure it and once to paint it.
 """
 
 from __future__ import annotations
 
+import re
+import textwrap
 from collections.abc import Callable
 from functools import wraps
 from pathlib import Path
@@ -26,6 +32,7 @@ import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
 from matplotlib.colors import LinearSegmentedColormap  # noqa: E402
+from matplotlib.ticker import LogFormatterSciNotation  # noqa: E402
 
 from ..tables import atomic_write  # noqa: E402
 
@@ -65,6 +72,9 @@ LOOK: dict[str, Any] = {
     "axes.linewidth": 0.8,
     "axes.facecolor": "white",
     "figure.facecolor": "white",
+    # Figures are drawn at the resolution they are saved at, so the layout's text measures are
+    # reused by the save.
+    "figure.dpi": 120,
     "savefig.facecolor": "white",
     "figure.titlesize": 11,
     "figure.titleweight": "bold",
@@ -90,7 +100,7 @@ UTILISATION_CMAP = LinearSegmentedColormap.from_list(
     "sdmnet-utilisation", plt.get_cmap("cividis_r")(np.linspace(0.12, 1.0, 256))
 )
 
-DPI = 120
+DPI = LOOK["figure.dpi"]
 _F = TypeVar("_F", bound=Callable[..., Path])
 
 
@@ -125,9 +135,72 @@ def apply_look(ax: plt.Axes) -> None:
         ax.spines[side].set_visible(False)
 
 
+# Footnotes: 7 pt text, wrapped by character count (DejaVu Sans averages about 0.6 em a character
+# in running text; common practice, no source), so the strip they need is known before any draw.
+_NOTE_PT = 7.0
+_NOTE_LINE = 1.2  # line height, in font sizes
+_NOTE_CHAR_EM = 0.6
+_NOTE_PAD_PT = 6.0
+
+
 def footnote(fig: plt.Figure, text: str) -> None:
-    """A small grey footnote under the axes."""
-    fig.text(0.01, -0.01, text, ha="left", va="top", fontsize=7, color=QUIET, wrap=True)
+    """A small grey footnote at the bottom of ``fig``, in a strip its constrained layout keeps free.
+
+    The text is wrapped to the figure's width here (not by matplotlib at draw time), so the strip's
+    height is known without drawing.  ``fig`` must use ``layout="constrained"``.
+    """
+    width_pt = (fig.get_figwidth() - 0.2) * 72
+    lines = textwrap.wrap(text, max(20, int(width_pt / (_NOTE_PT * _NOTE_CHAR_EM))))
+    strip = (len(lines) * _NOTE_PT * _NOTE_LINE + _NOTE_PAD_PT) / 72 / fig.get_figheight()
+    fig.get_layout_engine().set(rect=(0.0, strip, 1.0, 1.0 - strip))
+    top = strip - 0.5 * _NOTE_PAD_PT / 72 / fig.get_figheight()
+    fig.text(0.01, top, "\n".join(lines), ha="left", va="top", fontsize=_NOTE_PT, color=QUIET,
+             linespacing=_NOTE_LINE)  # fmt: skip
+
+
+def suptitle(fig: plt.Figure, text: str) -> None:
+    """The figure's title on the left, wrapped to the figure's width (the figure is saved at its
+    own size, so a longer line would be cut off)."""
+    size = float(LOOK["figure.titlesize"])
+    width_pt = (fig.get_figwidth() - 0.2) * 72
+    fig.suptitle("\n".join(textwrap.wrap(text, max(20, int(width_pt / (size * _NOTE_CHAR_EM))))), x=0.01, ha="left")
+
+
+# Minus (hyphen or U+2212) and digits to their superscript forms (DejaVu Sans has every one).
+_SUPERSCRIPTS = str.maketrans(
+    "-\u22120123456789", "\u207b\u207b\u2070\u00b9\u00b2\u00b3\u2074\u2075\u2076\u2077\u2078\u2079"
+)
+# What LogFormatterSciNotation writes: $\mathdefault{10^{-3}}$ or $\mathdefault{2\times10^{-3}}$.
+_MATH_POWER = re.compile(
+    r"^\$\\mathdefault\{(?:(?P<mantissa>[0-9.]+)\\times)?(?P<base>[0-9]+)\^\{(?P<exponent>[-\u22120-9]+)\}\}\$$"
+)
+
+
+class PlainLogFormatter(LogFormatterSciNotation):
+    """Log-axis tick labels such as ``10⁻³`` or ``2×10⁻³`` in plain text (superscript digits).
+
+    matplotlib's own formatter writes the same labels in mathtext, whose parser takes a tenth of
+    a second or more to build in every process; anything it writes that is not a power of ten
+    is passed through unchanged.
+    """
+
+    def __call__(self, x: float, pos: int | None = None) -> str:
+        label = super().__call__(x, pos)
+        match = _MATH_POWER.match(label)
+        if match is None:
+            return label
+        power = match["base"] + match["exponent"].translate(_SUPERSCRIPTS)
+        return f"{match['mantissa']}\u00d7{power}" if match["mantissa"] else power
+
+
+def log_axis(axis: Any) -> None:
+    """Put ``axis`` (``ax.yaxis`` or ``ax.xaxis``) on a log scale with plain-text tick labels."""
+    if axis.axis_name == "y":
+        axis.axes.set_yscale("log")
+    else:
+        axis.axes.set_xscale("log")
+    axis.set_major_formatter(PlainLogFormatter(10.0))
+    axis.set_minor_formatter(PlainLogFormatter(10.0, labelOnlyBase=False))
 
 
 def save_figure(fig: plt.Figure, path: Path) -> Path:
@@ -136,10 +209,16 @@ def save_figure(fig: plt.Figure, path: Path) -> Path:
     path = Path(path)
 
     def draw(tmp: str) -> None:
-        fig.savefig(tmp, format="png", dpi=DPI, bbox_inches="tight", metadata={"Software": None})
+        fig.savefig(tmp, format="png", dpi=DPI, metadata={"Software": None})
 
     try:
         with plt.style.context(["default", LOOK]):
+            engine = fig.get_layout_engine()
+            if engine is not None:
+                # Lay the figure out once, then drop the engine: with one, savefig first runs a
+                # whole draw (painting switched off) only to lay the figure out.
+                engine.execute(fig)
+                fig.set_layout_engine(None)  # with the rc of LOOK: no engine at all
             atomic_write(path, draw)
     finally:
         plt.close(fig)

@@ -9,7 +9,7 @@ import matplotlib.pyplot as plt
 import numpy as np
 import pandas as pd
 
-from .look import apply_look, architectures_in, footnote, save_figure, style_for, with_look
+from .look import apply_look, architectures_in, footnote, save_figure, style_for, suptitle, with_look
 
 __all__ = ["gsnr_figure"]
 
@@ -32,8 +32,9 @@ def gsnr_figure(paths: pd.DataFrame, path: Path) -> Path:
     names = architectures_in(rows)
     columns = min(3, max(1, len(names)))
     lines = math.ceil(len(names) / columns)
-    size = (3.7 * columns, 3.0 * lines)
-    fig, axes = plt.subplots(lines, columns, figsize=size, sharex=True, sharey=True, squeeze=False)
+    size = (3.7 * columns + 1.6, 3.0 * lines + 0.6)  # + the legend on the right, title and note
+    fig, axes = plt.subplots(lines, columns, figsize=size, sharex=True, sharey=True, squeeze=False,
+                             layout="constrained")  # fmt: skip
     feasible = _is_true(rows["feasible"]) if "feasible" in rows.columns else pd.Series(True, index=rows.index)
     classes = rows["transceiver_class"].astype(str) if "transceiver_class" in rows.columns else None
     kinds = list(dict.fromkeys(classes)) if classes is not None else [""]
@@ -76,8 +77,7 @@ def gsnr_figure(paths: pd.DataFrame, path: Path) -> Path:
     for ax in axes.flat[1 : len(names)]:
         for h, lab in zip(*ax.get_legend_handles_labels()):
             seen.setdefault(lab, h)
-    fig.legend(seen.values(), seen.keys(), loc="upper right", bbox_to_anchor=(1.0, 1.0), title="transceiver class")
-    fig.suptitle("GSNR of the candidate paths against their length", x=0.01, ha="left")
+    fig.legend(seen.values(), seen.keys(), loc="outside right upper", title="transceiver class")
+    suptitle(fig, "GSNR of the candidate paths against their length")
     footnote(fig, "Filled: feasible; hollow: refused. Dotted: the OSNR each class needs (without the margin).")
-    fig.tight_layout(rect=(0, 0, 0.85, 0.97))
     return save_figure(fig, path)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import csv
 import os
 import signal
 import subprocess
@@ -232,3 +233,23 @@ def test_a_run_larger_than_the_memory_limit_is_refused_before_it_starts(tmp_path
     assert "more than the --memory-limit given (0.102 MB)" in err[0] and "--memory-limit SIZE (or none)" in err[0]
     assert not (out / "summary.csv").exists()
     assert main(["simulate", str(scen), "-o", str(out), "--quiet", "--memory-limit", "none"]) == 0
+
+
+def test_simulate_takes_the_estimate_from_the_command_line(tmp_path, capsys):
+    scen = _scenario(tmp_path, requests=300, replications=2)
+    out = tmp_path / "sim"
+    assert main(["simulate", str(scen), "-o", str(out), "--quiet", "--estimate", "fixed-point"]) == 0
+    with open(out / "summary.csv", newline="") as fh:
+        assert {row["estimate_method"] for row in csv.DictReader(fh)} == {"fixed-point"}
+    capsys.readouterr()
+    proc = _run("simulate", str(scen), "--estimate", "fast")
+    assert proc.returncode == 2 and proc.stderr.startswith("error: <command line>:")
+
+
+def test_an_unknown_estimate_in_the_scenario_names_the_choices(tmp_path):
+    scen = _scenario(tmp_path)
+    scen.write_text(scen.read_text().replace("k_paths = 2", 'k_paths = 2\nestimate = "rooted"'))
+    proc = _run("check", str(scen))
+    assert proc.returncode == 2
+    line = proc.stderr.strip()
+    assert line.startswith(f"error: {scen}: run.estimate:") and "'routed'" in line

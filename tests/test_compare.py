@@ -39,3 +39,33 @@ def test_one_cable_estimate_sits_inside_the_interval(tmp_path):
     row = api.simulate(sc, tmp_path, progress=False, figures=False).summary.iloc[0]
     assert row.blocking_ci_low <= row.estimate_blocking <= row.blocking_ci_high
     assert not row.estimate_outside_interval and row.estimate_gap == ""
+
+
+def test_simulate_says_which_estimate_filled_its_columns(tmp_path, monkeypatch):
+    # [run] estimate = "auto": routed on a small network; past the size limit the plain Erlang
+    # fixed point, with a note; "none" leaves the columns empty.
+    from dataclasses import replace
+
+    from sdmnet.analysis import estimate as estimate_module
+
+    arch = Architecture("ind", "independent")
+    sc = scenario(chain(fiber_type(cores=1, channels=10), 2), [arch], loads=(6.0,), requests=500, replications=2)
+    small = api.simulate(sc, tmp_path / "small", progress=False, figures=False)
+    assert small.summary["estimate_method"].tolist() == ["routed"] and small.notes == []
+
+    monkeypatch.setattr(estimate_module, "ROUTED_WORK_LIMIT", 1)  # the two-hop route is over it
+    large = api.simulate(sc, tmp_path / "large", progress=False, figures=False)
+    assert large.summary["estimate_method"].tolist() == ["fixed-point"]
+    assert any("plain Erlang fixed point" in note for note in large.notes)
+    # One route and one stream: the plain fixed point is the routed one without continuity,
+    # which a single stream does not feel, so both give the same figure here.
+    assert large.summary["estimate_blocking"].iloc[0] == small.summary["estimate_blocking"].iloc[0]
+
+    routed = api.simulate(replace(sc, run=replace(sc.run, estimate="routed")), tmp_path / "routed", progress=False,
+                          figures=False)  # fmt: skip
+    assert routed.summary["estimate_method"].tolist() == ["routed"]
+
+    nothing = api.simulate(replace(sc, run=replace(sc.run, estimate="none")), tmp_path / "none", progress=False,
+                           figures=False)  # fmt: skip
+    assert nothing.summary["estimate_method"].tolist() == ["none"]
+    assert nothing.summary["estimate_blocking"].isna().all()

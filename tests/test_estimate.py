@@ -11,7 +11,7 @@ import pytest
 from builders import chain, fiber_type, scenario, shortest_routes, single_cable
 
 from sdmnet.analysis.analytic import erlang_b, kaufman_roberts, reduced_load_fixed_point
-from sdmnet.analysis.estimate import NETWORK_COLUMNS, PAIR_COLUMNS, estimate
+from sdmnet.analysis.estimate import NETWORK_COLUMNS, PAIR_COLUMNS, ROUTED_WORK_LIMIT, estimate
 from sdmnet.errors import ConfigurationError
 from sdmnet.inputs.model import Architecture, Cable, Site, Topology
 
@@ -158,3 +158,69 @@ def test_fiber_switching_with_grooming_is_kaufman_roberts_over_the_provisioned_l
     net, _ = estimate(sc, route_finder=shortest_routes)
     per_class = kaufman_roberts(24, [6.0, 4.0], [1, 3])
     assert net["blocking"].iloc[0] == pytest.approx(0.6 * per_class[0] + 0.4 * per_class[1], rel=1e-9)
+
+
+# ---- which method runs: routed while cheap, the plain Erlang fixed point on large networks ----
+
+
+def _datacenter_line(sites: int) -> Topology:
+    """``sites`` datacenters in a line: pair (i, j) has one route of |i - j| hops."""
+    f = fiber_type(cores=1, channels=10)
+    ids = [f"D{i:02d}" for i in range(sites)]
+    cables = tuple(Cable(a, b, 5.0, f.name, 1) for a, b in zip(ids, ids[1:]))
+    return Topology("line", {f.name: f}, tuple(Site(s, "datacenter") for s in ids), cables)
+
+
+def test_the_fixed_point_method_on_one_cable_is_erlang_b():
+    loads = (5.0, 15.0)
+    sc = scenario(single_cable(fiber_type(cores=1, channels=10), fiber_pairs=2), [INDEPENDENT], loads=loads)
+    net, _ = estimate(sc, route_finder=shortest_routes, method="fixed-point")
+    assert net["blocking"].tolist() == pytest.approx([erlang_b(20, a) for a in loads], rel=1e-10)
+    assert set(net["method"]) == {"fixed-point"}
+
+
+def test_the_fixed_point_method_puts_each_pair_on_its_first_route():
+    # A ring of four datacenters with k = 2: every pair has a second route, which the plain fixed
+    # point leaves out; it must equal the Erlang fixed point of analysis.analytic (an independent
+    # implementation) on the first routes, and block more than the routed estimate.
+    f = fiber_type(cores=1, channels=6)
+    ids = ["A", "B", "C", "D"]
+    cables = tuple(Cable(a, b, 5.0 + i, f.name, 1) for i, (a, b) in enumerate(zip(ids, ids[1:] + ids[:1])))
+    ring = Topology("ring", {f.name: f}, tuple(Site(s, "datacenter") for s in ids), cables)
+    sc = scenario(ring, [INDEPENDENT], loads=(12.0,), k_paths=2)
+    plain, pairs = estimate(sc, route_finder=shortest_routes, method="fixed-point")
+    routed, _ = estimate(sc, route_finder=shortest_routes, method="routed")
+    found = shortest_routes(sc, INDEPENDENT)
+    streams = [(12.0 / 6, tuple(found[p][0].cables), 1) for p in sorted(found)]
+    fp = reduced_load_fixed_point([6, 6, 6, 6], streams)
+    assert plain["blocking"].iloc[0] == pytest.approx(float(np.mean(fp.stream_blocking)), abs=1e-9)
+    assert plain["blocking"].iloc[0] > routed["blocking"].iloc[0]
+    assert plain["method"].tolist() == ["fixed-point"] and routed["method"].tolist() == ["routed"]
+
+
+def test_auto_takes_the_routed_estimate_on_a_small_network():
+    sc = scenario(_datacenter_line(5), [INDEPENDENT], loads=(4.0, 8.0))
+    auto, _ = estimate(sc, route_finder=shortest_routes, method="auto")
+    routed, _ = estimate(sc, route_finder=shortest_routes)
+    assert auto["method"].tolist() == ["routed", "routed"]
+    assert auto["blocking"].tolist() == routed["blocking"].tolist()
+
+
+def test_auto_falls_back_to_the_fixed_point_on_a_large_network():
+    # 40 datacenters in a line, one route per pair: sum over pairs of hops = n (n^2 - 1) / 6 =
+    # 10,660 route hops, times 10 load points = 106,600, over the limit of 100,000.
+    sites, loads = 40, tuple(float(a) for a in range(1, 11))
+    assert sites * (sites**2 - 1) // 6 * len(loads) > ROUTED_WORK_LIMIT
+    sc = scenario(_datacenter_line(sites), [INDEPENDENT], loads=loads)
+    auto, _ = estimate(sc, route_finder=shortest_routes, method="auto")
+    plain, _ = estimate(sc, route_finder=shortest_routes, method="fixed-point")
+    assert set(auto["method"]) == {"fixed-point"}
+    assert auto["blocking"].tolist() == plain["blocking"].tolist()
+    # The same line at 9 load points (95,940 route hops x points) stays within the limit.
+    assert sites * (sites**2 - 1) // 6 * 9 <= ROUTED_WORK_LIMIT
+
+
+def test_an_unknown_method_is_refused():
+    sc = scenario(single_cable(fiber_type()), [INDEPENDENT])
+    with pytest.raises(ValueError, match="method must be one of"):
+        estimate(sc, route_finder=shortest_routes, method="fast")

@@ -12,7 +12,7 @@ import pytest
 from sdmnet.inputs.bundled import bundled_scenario
 from sdmnet.inputs.loaders import load_scenario
 from sdmnet.sim.engine import prepare, simulate_replication
-from sdmnet.sim.stats import ratio_interval, steady_state_check, t_interval, t_quantile
+from sdmnet.sim.stats import f_survival, ratio_interval, steady_state_check, t_interval, t_quantile
 
 # Upper critical values t(1 - alpha, df) of Student's t, as printed (3 decimals) in the
 # NIST/SEMATECH e-Handbook of Statistical Methods, section 1.3.6.7.2, "Critical Values of the
@@ -47,6 +47,29 @@ def test_t_quantile_agrees_with_a_reference_library_to_rounding() -> None:
         for probability in (0.6, 0.9, 0.975, 0.9995):
             assert t_quantile(probability, df) == pytest.approx(float(stdtrit(df, probability)), rel=1e-9)
     assert t_quantile(0.5, 7) == 0.0
+
+
+# Upper 5 % points F(0.95; dfn, dfd) of Fisher's F as printed in the NIST/SEMATECH e-Handbook of
+# Statistical Methods, section 1.3.6.7.3, "Upper Critical Values of the F Distribution" (from
+# memory, 3 decimals): P(F > value) must be 0.05 to the printed precision.
+F_UPPER_5_PERCENT = {(1, 10): 4.965, (2, 10): 4.103, (4, 20): 2.866, (9, 30): 2.211, (1, 100): 3.936}
+
+
+@pytest.mark.parametrize(("dfs", "printed"), sorted(F_UPPER_5_PERCENT.items()))
+def test_f_survival_matches_the_printed_table(dfs: tuple[int, int], printed: float) -> None:
+    below, above = f_survival(*dfs, printed - 0.0005), f_survival(*dfs, printed + 0.0005)
+    assert above < 0.05 < below
+
+
+def test_f_survival_agrees_with_a_reference_library() -> None:
+    # scipy's fdtrc (Cephes) as an independent implementation; sdmnet does not import it.
+    from scipy.special import fdtrc
+
+    for dfn in (1, 2, 3, 9, 99):
+        for dfd in (1, 2, 20, 1000, 20_000):
+            for f in (1e-6, 0.3, 1.0, 1.7, 10.0, 1e3):
+                assert f_survival(dfn, dfd, f) == pytest.approx(float(fdtrc(dfn, dfd, f)), rel=1e-9, abs=1e-300)
+    assert f_survival(3, 10, 0.0) == 1.0
 
 
 def test_t_interval_matches_a_hand_computed_case():

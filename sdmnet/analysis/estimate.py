@@ -107,20 +107,25 @@ def _pair_routes(found: dict[tuple[str, str], list[Route]], a: str, b: str) -> l
     return routes if routes is not None else found.get((b, a), [])
 
 
-def _option(route: Route, units: int, geos: list[UnitGeometry], fibers: list[int], lane_change: bool) -> RouteOption:
-    """The route with ``units`` per hop and its continuity slots (docs/estimate.md)."""
+def _route_slots(
+    route: Route, geos: list[UnitGeometry], fibers: list[int], lane_change: bool
+) -> tuple[int, tuple[int, ...]]:
+    """The route's continuity slots and unit positions per slot on each hop (docs/estimate.md);
+    ``(0, ())`` under fiber switching, which takes any free fiber on each hop (no continuity)."""
     geo = geos[route.cables[0]]
-    per_hop = (units,) * len(route.cables)
     if geo.whole_fiber:
-        # Fiber switching: any free fiber on each hop, no continuity rule.
-        return RouteOption(tuple(route.cables), per_hop)
+        return 0, ()
     if lane_change:
-        slots = min(geos[c].channels for c in route.cables)
-        positions = tuple(fibers[c] * geos[c].groups_per_fiber for c in route.cables)
-    else:
-        slots = min(geos[c].channels for c in route.cables) * geo.groups_per_fiber
-        positions = tuple(fibers[c] for c in route.cables)
-    return RouteOption(tuple(route.cables), per_hop, slots, positions)
+        return min(geos[c].channels for c in route.cables), tuple(fibers[c] * geos[c].groups_per_fiber
+                                                                   for c in route.cables)  # fmt: skip
+    return min(geos[c].channels for c in route.cables) * geo.groups_per_fiber, tuple(fibers[c] for c in route.cables)
+
+
+def _option(route: Route, units: int, slots: tuple[int, tuple[int, ...]]) -> RouteOption:
+    """The route with ``units`` per hop and its continuity ``slots`` (:func:`_route_slots`, worked out
+    once per route for all its sizes)."""
+    cables = tuple(route.cables)
+    return RouteOption(cables, (units,) * len(cables), *slots)
 
 
 def _grooming(size: float, unit_gbps: float, pair_load: float) -> tuple[float, float]:
@@ -162,12 +167,12 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
         if not routes:
             continue
         first = geos[routes[0].cables[0]]
+        slots = [_route_slots(r, geos, fibers, arch.lane_change) for r in routes]
         for k, (size, prob) in enumerate(zip(sizes, probs)):
             if prob <= 0:
                 continue
             options = tuple(
-                _option(r, units_needed(float(size), geos[r.cables[0]]), geos, fibers, arch.lane_change)
-                for r in routes
+                _option(r, units_needed(float(size), geos[r.cables[0]]), slot) for r, slot in zip(routes, slots)
             )
             new, scale = (1.0, 1.0)
             if arch.share and not provisioned:

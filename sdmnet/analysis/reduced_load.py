@@ -40,7 +40,6 @@ from dataclasses import dataclass
 from itertools import combinations
 
 import numpy as np
-from scipy.special import bdtrc
 
 from .analytic import _blocking_from_log, _occupancy_log
 
@@ -50,6 +49,8 @@ __all__ = ["RouteOption", "RoutedStream", "RoutedResult", "routed_fixed_point"]
 def _binomial_sf(k, n, p) -> np.ndarray:
     """P(X > k) for X ~ Binomial(n, p), broadcast: scipy.stats' binom.sf without importing
     scipy.stats (slow to import); bdtrc is the same sum, defined only for 0 <= k < n."""
+    from scipy.special import bdtrc  # here: a tenth of a second to import, and one hop never needs it
+
     k, n, p = np.broadcast_arrays(np.asarray(k, np.int64), np.asarray(n, np.int64), np.asarray(p, float))
     inside = (k >= 0) & (k < n)
     out = np.where(k < 0, 1.0, 0.0)

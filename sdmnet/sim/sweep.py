@@ -149,8 +149,9 @@ class TaskStore:
         # at any point, even while the file is being created, leaves nothing behind.
         tmp = self.folder / f".tmp-{task.key}.json"
         try:
+            text = json.dumps(payload)  # one C call; json.dump writes piece by piece from Python
             with open(tmp, "w") as fh:
-                json.dump(payload, fh)
+                fh.write(text)
             os.replace(tmp, self.path(task))
         except BaseException:
             # A failed or interrupted write leaves neither a partial task file nor its temporary.

@@ -1,7 +1,7 @@
 """Scale: preparation time, engine speed and memory on generated metro regions of 14 to 100 sites.
 
 Run: ``.venv/bin/python bench/bench_scale.py`` (``--sizes 14 30``, ``--repeats R``, ``--skip-plan``,
-``--skip-cli``, ``--instructions``; ``--help``).  Prints figures only; nothing here asserts a time.
+``--skip-cli``, ``--instructions``, ``--cli-only LOAD``; ``--help``).  Prints figures only; nothing here asserts a time.
 
 Each region (our own invention, :func:`metro_region`): ``n`` sites, all datacenters, placed at
 random in a square of 6 km x sqrt(n) on a side (the same density at every size), joined in a
@@ -18,8 +18,10 @@ request blocking (bisection), the engine's requests per
 second at that load on one core (best of three runs), and the process's peak resident memory.
 The whole is repeated ``--repeats`` times and the best of each figure kept (the machine is shared:
 the best is the least disturbed).  Then: the wall time of ``sdmnet simulate`` through the CLI on
-the largest region (2 x 2,000 requests), and of a plan of the 30-site region (capped: short runs
-and few candidates, see :func:`plan_seconds`).  With ``--instructions``: instructions per
+the largest region (2 x 2,000 requests) with where one such run's time goes (imports, loading,
+``prepare``, the estimate and which method ran, sweep and tables, the report and each figure;
+``--cli-only LOAD`` runs only this step), and of a plan of the 30-site region (capped: short
+runs and few candidates, see :func:`plan_seconds`).  With ``--instructions``: instructions per
 request of the engine on each region under valgrind's callgrind, a figure other work on the
 machine does not move.
 """
@@ -273,6 +275,53 @@ def cli_seconds(n: int, load: float, requests: int = 2_000) -> float:
         return time.perf_counter() - started
 
 
+# One simulate of the region in a fresh process, stage by stage: each stage's function is wrapped
+# by a timer (nothing else changes), and "the rest" is what the run's wall time leaves.
+_CLI_STAGES_CHILD = """
+import json, time
+started = time.perf_counter()
+from sdmnet import api
+from sdmnet.inputs.loaders import load_scenario
+import sdmnet.output.report, sdmnet.output.figures as figures
+spent = {{"imports": time.perf_counter() - started}}
+
+def timed(owner, name, label):
+    inner = getattr(owner, name)
+    def wrapper(*args, **kwargs):
+        t = time.perf_counter()
+        try:
+            return inner(*args, **kwargs)
+        finally:
+            spent[label] = spent.get(label, 0.0) + time.perf_counter() - t
+    setattr(owner, name, wrapper)
+
+timed(api, "prepare", "prepare (routes, physics)")
+timed(api, "estimate_scenario", "estimate")
+timed(api, "report", "report (figures, page)")
+for name in ("blocking_figure", "resources_figure", "topology_figure"):
+    timed(figures, name, "  figure " + name.replace("_figure", ""))
+t = time.perf_counter()
+scenario = load_scenario({path!r})
+spent["load the scenario"] = time.perf_counter() - t
+t = time.perf_counter()
+result = api.simulate(scenario, {out!r}, progress=False)
+whole = time.perf_counter() - t
+inside = ("prepare (routes, physics)", "estimate", "report (figures, page)")
+spent["sweep, tables, task files"] = whole - sum(spent.get(k, 0.0) for k in inside)
+spent["estimate method"] = ", ".join(sorted(set(result.summary["estimate_method"])))
+print(json.dumps(spent))
+"""
+
+
+def cli_stages(n: int, load: float, requests: int = 2_000) -> dict:
+    """Where the time of one ``simulate`` of the region goes (fresh process, seconds per stage)."""
+    with tempfile.TemporaryDirectory() as tmp:
+        scenario = write_region_files(n, Path(tmp), requests, 2, load)
+        code = _CLI_STAGES_CHILD.format(path=str(scenario), out=str(Path(tmp) / "out"))
+        done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+        return json.loads(done.stdout.strip().splitlines()[-1])
+
+
 def plan_seconds(load: float, requests: int, max_candidates: int) -> tuple[float, int, bool]:
     """Wall time of a plan of the 30-site region at ``load`` (target 1 %): replications of
     ``requests`` each, at most ``max_candidates`` candidates; returns (seconds, candidates, met)."""
@@ -293,6 +342,16 @@ def plan_seconds(load: float, requests: int, max_candidates: int) -> tuple[float
     return wall, plan.candidates, plan.met
 
 
+def print_cli_stages(n: int, load: float) -> None:
+    stages = cli_stages(n, load)
+    method = stages.pop("estimate method")
+    print(f"  one simulate of it in a fresh process, stage by stage (estimate: {method}):")
+    first = ("imports", "load the scenario", "prepare (routes, physics)", "estimate", "sweep, tables, task files",
+             "report (figures, page)")  # fmt: skip
+    for what in [*first, *sorted(k for k in stages if k not in first)]:
+        print(f"    {what:<32} {stages.get(what, 0.0):6.2f} s", flush=True)
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sizes", type=int, nargs="+", default=list(SIZES))
@@ -306,7 +365,17 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--child", type=int, help=argparse.SUPPRESS)
     parser.add_argument("--load", type=float, help=argparse.SUPPRESS)
     parser.add_argument("--setup-file", help=argparse.SUPPRESS)
+    parser.add_argument("--cli-only", type=float, metavar="LOAD",
+                        help="only the CLI step on the largest of --sizes, at LOAD Erlang (no table, no plan)")
     args = parser.parse_args(argv)
+    if args.cli_only is not None:
+        n = max(args.sizes)
+        print(f"load average {os.getloadavg()[0]:.2f}")
+        wall = min(cli_seconds(n, args.cli_only) for _ in range(args.repeats))
+        print(f"sdmnet simulate through the CLI, {n} sites at {args.cli_only:,.0f} Erlang, 2 x 2,000 requests: "
+              f"{wall:.1f} s (best of {args.repeats})", flush=True)
+        print_cli_stages(n, args.cli_only)
+        return 0
     if args.child:
         print(json.dumps(measure_region(args.child, args.requests, args.load, args.setup_file)))
         return 0
@@ -348,6 +417,7 @@ def main(argv: list[str] | None = None) -> int:
             wall = min(cli_seconds(n, loads[n]) for _ in range(args.repeats))
             print(f"sdmnet simulate through the CLI, {n} sites, 2 x 2,000 requests: {wall:.1f} s "
                   f"(best of {args.repeats})", flush=True)
+            print_cli_stages(n, loads[n])
         if not args.skip_plan:
             load = loads.get(30)
             if load is None:

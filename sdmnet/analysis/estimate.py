@@ -8,8 +8,8 @@ For each architecture the network becomes a loss network of *units* (docs/model.
   hop that tries the pair's feasible routes in order, as the simulator does;
 * a route of several hops needs common channel slots (continuity), with or without lane change;
 * per-link blocking by Kaufman-Roberts, coupled across links by the routed reduced-load fixed
-  point (:func:`sdmnet.analysis.reduced_load.routed_fixed_point`); grooming (``share``) by a
-  heuristic share of demands that ride lit units.
+  point (:func:`sdmnet.analysis.reduced_load.routed_fixed_point`); under grooming (``share``,
+  unit switching) each pair's lit units by :func:`sdmnet.analysis.grooming.groomed_fixed_point`.
 
 Two methods (:data:`METHODS`): ``"routed"`` (the above, the default) and ``"fixed-point"``, the
 plain Erlang fixed point: each stream on its first route only, no continuity rule.  The routed
@@ -23,7 +23,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
@@ -36,6 +36,7 @@ from ..optics.pathtable import feasible_routes
 from ..optics.physics import mimo_group
 from ..sim.engine import modules_per_end
 from ..sim.provisioning import provision_fiber_paths
+from .grooming import GroomedGroup, groomed_fixed_point
 from .reduced_load import RoutedStream, RouteOption, routed_fixed_point
 
 __all__ = [
@@ -89,7 +90,7 @@ class _Model:
     pair_share: np.ndarray  # (N,) share of the total load per pair
     routed: np.ndarray  # (N,) bool: pair has a route
     stream_pair: np.ndarray  # (S,) pair index of each stream
-    stream_rate: np.ndarray  # (S,) offered load per Erlang of total load (demands needing new units)
+    stream_rate: np.ndarray  # (S,) offered load per Erlang of total load
     stream_gbps: np.ndarray  # (S,) demand size of each stream
     stream_size: np.ndarray  # (S,) size class of each stream
     streams: list[RoutedStream]  # the routes each stream tries, in order
@@ -100,6 +101,15 @@ class _Model:
     pair_route_lanes: list[tuple[int, ...]]  # per pair and route, lanes of one fiber
     size_probs: list[float]  # per size class
     size_lanes: list[list[list[int]]]  # per pair, route and size class: lanes one demand fills
+    # Unit switching with grooming: each pair's routes as groups of lit units, and the quanta
+    # (lanes, or fractions of a lane) of a demand of each size class (docs/estimate.md, grooming).
+    groomed: bool = False
+    groups: tuple[GroomedGroup, ...] = ()
+    # The plain fixed point keeps the old grooming heuristic (cheap on large networks): per
+    # stream, the share of demands that light new units and the load scale of those.
+    first_route_new: np.ndarray = field(default_factory=lambda: np.ones(0))
+    first_route_scale: tuple[float, ...] = ()
+    size_lane_counts: tuple[int, ...] = ()
 
 
 def _pair_routes(found: dict[tuple[str, str], list[Route]], a: str, b: str) -> list[Route]:
@@ -128,9 +138,9 @@ def _option(route: Route, units: int, slots: tuple[int, tuple[int, ...]]) -> Rou
     return RouteOption(cables, (units,) * len(cables), *slots)
 
 
-def _grooming(size: float, unit_gbps: float, pair_load: float) -> tuple[float, float]:
-    """Share of a size's demands that need new units, and the unit load per such demand
-    relative to ``units_needed`` (docs/estimate.md, grooming).
+def _heuristic_grooming(size: float, unit_gbps: float, pair_load: float) -> tuple[float, float]:
+    """For the plain fixed point only: share of a size's demands that need new units, and the
+    unit load per such demand relative to ``units_needed`` (docs/estimate.md, grooming).
 
     A demand rides spare capacity when the pair has a lit unit with at least ``size`` spare:
     the spare of the pair's last unit is taken as uniform over the unit, and the pair has no lit
@@ -142,6 +152,16 @@ def _grooming(size: float, unit_gbps: float, pair_load: float) -> tuple[float, f
     return new, min(1.0, size / unit_gbps / (new * n))
 
 
+def _grooming_quantum(sizes: np.ndarray, lane_gbps: float) -> float:
+    """Gb/s step in which grooming counts capacity: the lane, or the largest fraction
+    lane / m (m <= 8) of which every size is a whole multiple (spare is then counted exactly)."""
+    for m in range(1, 9):
+        step = lane_gbps / m
+        if all(abs(s / step - round(s / step)) < 1e-9 for s in sizes):
+            return step
+    return lane_gbps
+
+
 def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) -> _Model:
     topo = scenario.topology_for(arch)
     geos = cable_geometries(scenario, arch)
@@ -151,11 +171,15 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
     pairs = [p for p in datacenter_pairs(topo) if weights.get(p, 0.0) > 0]
     sizes, probs = size_classes(scenario.traffic)
     found = route_finder(scenario, arch)
-    mean_load = float(np.mean(scenario.traffic.loads_erlang))
     provisioned = bool(geos) and geos[0].whole_fiber and arch.share
     routed, stream_pair, stream_rate, stream_gbps, stream_size, streams = [], [], [], [], [], []
     pair_routes, pair_route_lanes, size_lanes = [], [], []
+    lit_groups: list[GroomedGroup] = []
+    first_route_new: list[float] = []
+    first_route_scale: list[float] = []
+    mean_load = float(np.mean(scenario.traffic.loads_erlang))
     lane = scenario.transceiver.lane_gbps
+    quantum = _grooming_quantum(np.asarray(sizes, dtype=float), lane)
     for n, (a, b) in enumerate(pairs):
         routes = _pair_routes(found, a, b)
         routed.append(bool(routes))
@@ -176,12 +200,17 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
             )
             new, scale = (1.0, 1.0)
             if arch.share and not provisioned:
-                new, scale = _grooming(float(size), first.unit_gbps, mean_load * weights[(a, b)])
+                new, scale = _heuristic_grooming(float(size), first.unit_gbps, mean_load * weights[(a, b)])
+            first_route_new.append(new)
+            first_route_scale.append(scale)
             stream_pair.append(n)
-            stream_rate.append(weights[(a, b)] * prob * new)
+            stream_rate.append(weights[(a, b)] * prob)
             stream_gbps.append(float(size))
             stream_size.append(k)
-            streams.append(RoutedStream(options, scale))
+            streams.append(RoutedStream(options))
+        for r, slot in zip(routes, slots):
+            per_unit = max(1, round(geos[r.cables[0]].unit_gbps / quantum))
+            lit_groups.append(GroomedGroup(n, _option(r, 1, slot), per_unit))
     return _Model(
         capacities=capacities,
         pairs=pairs,
@@ -198,6 +227,13 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
         pair_route_lanes=pair_route_lanes,
         size_probs=[float(x) for x in probs],
         size_lanes=size_lanes,
+        # Grooming changes nothing when every demand fills whole units (units of one quantum):
+        # the routed estimate then holds as it is.
+        groomed=bool(arch.share and not provisioned and any(grp.lanes_per_unit > 1 for grp in lit_groups)),
+        groups=tuple(lit_groups),
+        first_route_new=np.array(first_route_new, dtype=float),
+        first_route_scale=tuple(first_route_scale),
+        size_lane_counts=tuple(max(1, math.ceil(float(s) / quantum - 1e-9)) for s in sizes),
     )
 
 
@@ -210,12 +246,15 @@ def _solve_routed(model: _Model, stream_loads: np.ndarray) -> tuple[np.ndarray, 
 
 def _solve_first_route(model: _Model, stream_loads: np.ndarray) -> tuple[np.ndarray, int, bool]:
     """Stream blocking (P, S) by the plain Erlang fixed point: each stream on its first route, no
-    continuity rule (the routed fixed point with one option and no slots is exactly that)."""
-    first = [RoutedStream((RouteOption(s.options[0].links, s.options[0].units),), s.load_scale)
-             for s in model.streams]  # fmt: skip
-    solved = routed_fixed_point(model.capacities, first, stream_loads, damping=_DAMPING, tol=_TOL,
+    continuity rule (the routed fixed point with one option and no slots is exactly that).  Under
+    grooming only the demands that light new units are offered, by the uniform-spare heuristic
+    (docs/estimate.md)."""
+    first = [RoutedStream((RouteOption(s.options[0].links, s.options[0].units),), scale)
+             for s, scale in zip(model.streams, model.first_route_scale)]  # fmt: skip
+    new = model.first_route_new[None, :]
+    solved = routed_fixed_point(model.capacities, first, stream_loads * new, damping=_DAMPING, tol=_TOL,
                                 max_iter=_MAX_ITER)  # fmt: skip
-    return solved.stream_blocking, solved.iterations, solved.converged
+    return solved.stream_blocking * new, solved.iterations, solved.converged
 
 
 def routed_work(model: _Model, points: int) -> int:
@@ -270,6 +309,16 @@ def _solve_provisioned(model: _Model, loads: np.ndarray, stream_loads: np.ndarra
     return blocking, iterations, converged
 
 
+def _solve_groomed(model: _Model, loads: np.ndarray) -> tuple[np.ndarray, int, bool]:
+    """Stream blocking (P, S) of unit switching with grooming: the pairs' lit units
+    (:func:`~sdmnet.analysis.grooming.groomed_fixed_point`)."""
+    probs = np.array(model.size_probs)
+    offered = loads[:, None, None] * model.pair_share[None, :, None] * probs[None, None, :]
+    solved = groomed_fixed_point(model.capacities, model.groups, model.size_lane_counts, offered,
+                                 damping=_DAMPING)  # fmt: skip
+    return solved.pair_blocking[:, model.stream_pair, model.stream_size], solved.iterations, solved.converged
+
+
 def _ratio(num: np.ndarray, den: np.ndarray) -> np.ndarray:
     """num / den, 0 where nothing was offered."""
     return np.divide(num, den, out=np.zeros_like(num, dtype=float), where=den > 0)
@@ -321,6 +370,8 @@ def estimate_architecture(
             stream_b, iterations, converged = _solve_provisioned(model, loads, stream_loads)
         elif ran == "fixed-point":
             stream_b, iterations, converged = _solve_first_route(model, stream_loads)
+        elif model.groomed:
+            stream_b, iterations, converged = _solve_groomed(model, loads)
         else:
             stream_b, iterations, converged = _solve_routed(model, stream_loads)
         lost = stream_loads * stream_b

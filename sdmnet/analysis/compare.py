@@ -2,7 +2,8 @@
 
 The estimate (:mod:`sdmnet.analysis.estimate`) treats every cable as a complete-sharing group of units
 that blocks independently of the others, offers overflow to later routes as Poisson traffic,
-takes free channels as spread at random for the continuity rule and approximates grooming.
+takes free channels as spread at random for the continuity rule and packs each pair's lit
+units tight under grooming.
 When the estimate falls outside the simulated interval, :func:`explain_gap` names the
 assumptions that can move it in the direction of the gap (see docs/estimate.md).
 """
@@ -40,7 +41,7 @@ def explain_gap(setup: EngineSetup, estimate: float, low: float, high: float, me
             reasons.append("free channels taken as spread at random (first fit packs them, so routes clash less)")
         if alternates and plain:
             reasons.append("alternate routes left out (the plain fixed point puts each pair on its first route)")
-        if arch.share and not setup.whole_fiber:
+        if arch.share and not setup.whole_fiber and plain:
             reasons.append("grooming approximated (spare capacity of lit units taken as uniform)")
     else:
         direction = "estimate below the interval"
@@ -48,8 +49,11 @@ def explain_gap(setup: EngineSetup, estimate: float, low: float, high: float, me
             reasons.append("overflow to later routes offered as Poisson traffic (it is peakier: low at light load)")
         if multi_hop and not setup.whole_fiber and plain:
             reasons.append("no channel continuity (the plain fixed point takes any free units on each hop)")
-        if arch.share and not setup.whole_fiber:
+        if arch.share and not setup.whole_fiber and plain:
             reasons.append("grooming approximated (spare capacity of lit units taken as uniform)")
+        elif arch.share and not setup.whole_fiber:
+            reasons.append("lit units taken as packed tight (the engine keeps a unit lit until its last demand "
+                           "leaves, so pairs hold more units: low at light load)")
     if not reasons:
         reasons.append("no modelling assumption identified: sampling error or a too short warm-up")
     return f"{direction}: " + "; ".join(reasons)

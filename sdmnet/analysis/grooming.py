@@ -130,11 +130,11 @@ def _link_blocking(lane_law: np.ndarray, g: np.ndarray, lanes: np.ndarray, capac
         left = capacity - (-(-(u[None, :] + extra) // g[:, None]))
         return np.where(left >= 0, np.take_along_axis(cdf, np.clip(left, 0, capacity), axis=1), 0.0)
 
-    admitted = room(0) * lane_law
-    mass = admitted.sum(axis=1)
+    fits = room(0)
+    mass = (fits * lane_law).sum(axis=1)
     blocking = np.empty((rows, lanes.size))
     for k, s in enumerate(lanes):
-        refused = ((room(0) - room(int(s))) * lane_law).sum(axis=1)
+        refused = ((fits - room(int(s))) * lane_law).sum(axis=1)
         blocking[:, k] = np.divide(refused, mass, out=np.ones(rows), where=mass > 0)
     total = prefix[-1][0]
     return np.clip(blocking, 0.0, 1.0), total / total.sum() if total.sum() > 0 else total
@@ -288,6 +288,7 @@ def groomed_fixed_point(
         return np.maximum(cell_load, 0.0)
 
     for p in range(n_points):
+        # Every point starts from empty links, so that its result does not depend on the others.
         blocking, occupancy, mean_units = link_state(np.zeros((n_groups, max_hops, n_sizes)), p)
         cell_load = step(blocking, occupancy, mean_units, p)
         weight, previous, done = damping, np.inf, False

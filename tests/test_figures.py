@@ -276,3 +276,25 @@ def test_log_tick_labels_are_plain_text_powers_of_ten() -> None:
     assert minor(0.03) == "3\u00d710\u207b\u00b2"
     assert "$" not in major(1e-3) + minor(0.02), "no mathtext: its parser is slow to build"
     plt.close(fig)
+
+
+def test_label_boxes_at_every_spot_are_the_measured_ones():
+    # _spot_boxes measures a label once and moves the box to each spot; a label moved there and
+    # measured by matplotlib must give the same box (to a tenth of a pixel).
+    from sdmnet.output.figures.topology import _LABEL_SPOTS, _spot_boxes
+
+    fig, ax = plt.subplots(figsize=(3.0, 2.0))
+    fig.draw_without_rendering()
+    renderer = fig.canvas.get_renderer()
+    dx, dy, ha, va = _LABEL_SPOTS[0]
+    label = ax.annotate("s042", (0.5, 0.5), xytext=(dx, dy), ha=ha, va=va, textcoords="offset points", fontsize=7,
+                        bbox={"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none"})  # fmt: skip
+    point = ax.transData.transform((0.5, 0.5))
+    boxes = _spot_boxes(label, point, fig.dpi / 72.0, renderer)
+    for (dx, dy, ha, va), box in zip(_LABEL_SPOTS, boxes):
+        label.set_position((dx, dy))
+        label.set_ha(ha)
+        label.set_va(va)
+        real = label.get_window_extent(renderer)
+        assert box == pytest.approx([real.x0, real.y0, real.x1, real.y1], abs=0.1), (ha, va)
+    plt.close(fig)

@@ -122,6 +122,7 @@ def simulate(
     progress: bool = True,
     figures: bool = True,
     memory_limit: float | None = None,
+    estimate_made: pd.DataFrame | None = None,
 ) -> SimulationResult:
     """Simulate every architecture at every load point and write the results.
 
@@ -150,6 +151,10 @@ def simulate(
     memory_limit : float, optional
         Bytes the run may use (:func:`sdmnet.sim.memory.require_memory`); default: what the
         machine has available; ``math.inf``: no check.
+    estimate_made : DataFrame, optional
+        The routed estimate of this scenario already made (:func:`estimate`'s network table),
+        used for the estimate columns instead of solving it again when ``[run] estimate`` is
+        ``"auto"`` or ``"routed"`` (``demo`` makes it for estimate.csv first).
 
     Raises
     ------
@@ -180,7 +185,10 @@ def simulate(
     prices = {name: unit_prices(scenario, module) for name, module in modules.items()}
     summary = summary_table(scenario, points, setups, resources, prices)
     summary = add_module_columns(summary, modules)
-    estimate_net, notes = _estimate_beside(scenario, memory, room)
+    if estimate_made is not None and scenario.run.estimate in ("auto", "routed"):
+        estimate_net, notes = estimate_made, []
+    else:
+        estimate_net, notes = _estimate_beside(scenario, memory, room)
     summary = attach_estimate(summary, estimate_net, setups)
     classes = class_table(points, setups)
     pairs = pair_table(points, setups)
@@ -356,9 +364,10 @@ def demo(scenario: Scenario, out_dir: Path | str, *, jobs: int = 2, progress: bo
     require_memory(scenario, "demo", jobs=jobs)
     out = ensure_out_dir(out_dir)
     paths(scenario, out)
-    estimate(scenario, out)
-    # The report (and every figure in it) is written once, at the end.
-    result = simulate(scenario, out, jobs=jobs, progress=progress, figures=False)
+    network, _ = estimate(scenario, out)
+    # The report (and every figure in it) is written once, at the end; the estimate beside the
+    # simulation is the one just made, not solved a second time.
+    result = simulate(scenario, out, jobs=jobs, progress=progress, figures=False, estimate_made=network)
     totals, planned = None, ()
     if scenario.plan is not None:
         made = plan(scenario, out, jobs=jobs, progress=progress, figures=False)

@@ -69,3 +69,18 @@ def test_simulate_says_which_estimate_filled_its_columns(tmp_path, monkeypatch):
                            figures=False)  # fmt: skip
     assert nothing.summary["estimate_method"].tolist() == ["none"]
     assert nothing.summary["estimate_blocking"].isna().all()
+
+
+def test_simulate_reuses_an_estimate_already_made(tmp_path, monkeypatch):
+    # demo writes estimate.csv first and hands its table to simulate: not solved a second time.
+    arch = Architecture("ind", "independent")
+    sc = scenario(chain(fiber_type(cores=1, channels=10), 2), [arch], loads=(6.0,), requests=500, replications=2)
+    network, _ = api.estimate(sc, tmp_path / "est")
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("the estimate was solved again")
+
+    monkeypatch.setattr(api, "estimate_scenario", refuse)
+    row = api.simulate(sc, tmp_path / "sim", progress=False, figures=False, estimate_made=network).summary.iloc[0]
+    assert row.estimate_blocking == network["blocking"].iloc[0]
+    assert row.estimate_method == "routed"

@@ -39,6 +39,7 @@ from dataclasses import dataclass
 from itertools import combinations
 
 import numpy as np
+from numpy.lib.stride_tricks import sliding_window_view
 
 from .analytic import _occupancy_log
 from .reduced_load import RouteOption, _continuity, _option_hops
@@ -85,59 +86,104 @@ class GroomedResult:
     converged: bool
 
 
-def _unit_laws(lane_law: np.ndarray, lanes_per_unit: np.ndarray, capacity: int) -> np.ndarray:
-    """(R, C + 1): law of ceil(U / g) per row from the lane laws (R, capacity * gmax + 1)."""
-    rows = lane_law.shape[0]
-    u = np.arange(lane_law.shape[1])
-    units = -(-u[None, :] // lanes_per_unit[:, None])  # (R, U)
-    out = np.zeros((rows, capacity + 1))
-    inside = units <= capacity
-    r_idx = np.broadcast_to(np.arange(rows)[:, None], units.shape)
-    np.add.at(out, (r_idx[inside], units[inside]), lane_law[inside])
-    return out
+def _toeplitz(b: np.ndarray) -> np.ndarray:
+    """(..., n, n) matrices T with T[c, j] = b[c - j] (0 above the diagonal): ``T @ a`` is the
+    convolution of ``a`` and ``b`` cut to n columns, by direct sums.  A strided view of ``b``
+    reversed after n zeros (row c is the window that ends at b[c])."""
+    n = b.shape[-1]
+    backwards = np.concatenate([b[..., ::-1], np.zeros((*b.shape[:-1], n))], axis=-1)  # b[n-1] .. b[0], 0 ..
+    return sliding_window_view(backwards, n, axis=-1)[..., n - 1 :: -1, :][..., :n, :]
 
 
-def _convolve_rows(a: np.ndarray, b: np.ndarray, size: int) -> np.ndarray:
-    """Convolution of two (1, n) laws, cut to ``size`` columns (direct sums: exact in sign)."""
-    return np.convolve(a[0], b[0])[:size][None, :]
+@dataclass(frozen=True)
+class _Layout:
+    """Where each (group, hop) cell sits: its link, and its row among that link's cells, so that
+    every link is solved at once with the links' cells padded to the same count."""
+
+    group: np.ndarray  # (R,) group of each cell
+    hop: np.ndarray  # (R,) hop of the cell on its group's route
+    link: np.ndarray  # (R,) link of the cell
+    slot: np.ndarray  # (R,) index among the links' cells
+    links: np.ndarray  # (M,) links that carry cells
+    row: np.ndarray  # (R,) row of the cell's link in ``links``
+    capacity: np.ndarray  # (R,) units of the cell's link
+    link_capacity: np.ndarray  # (M,) units of each carrying link
+    lanes: np.ndarray  # (R,) lanes per unit of the cell's group
+    width: int  # most rows on one link
 
 
-def _link_blocking(lane_law: np.ndarray, g: np.ndarray, lanes: np.ndarray, capacity: int
-                   ) -> tuple[np.ndarray, np.ndarray]:  # fmt: skip
-    """Blocking (R, K) of each group's sizes on one link, and the link's lit-unit law (C + 1,).
+def _layout(groups: Sequence[GroomedGroup], caps: np.ndarray) -> _Layout:
+    cells = [(i, h, ell) for i, grp in enumerate(groups) for h, ell in enumerate(grp.option.links)]
+    cells.sort(key=lambda c: c[2])
+    group = np.array([c[0] for c in cells], dtype=np.int64)
+    link = np.array([c[2] for c in cells], dtype=np.int64)
+    links, row, count = np.unique(link, return_inverse=True, return_counts=True)
+    first = np.r_[0, np.cumsum(count)[:-1]].astype(np.int64)
+    g = np.array([groups[i].lanes_per_unit for i in group], dtype=np.int64)
+    return _Layout(group, np.array([c[1] for c in cells], dtype=np.int64), link,
+                   np.arange(link.size) - first[row.ravel()], links, row.ravel(), caps[link], caps[links], g,
+                   int(count.max()) if count.size else 0)  # fmt: skip
 
-    ``lane_law`` (R, capacity * gmax + 1) is each group's lane law cut where its units exceed
-    the capacity (those states are outside the truncated set).
+
+@dataclass(frozen=True)
+class _Lookup:
+    """Index arrays that depend only on the cells' capacities, lanes per unit and the sizes, so
+    they are built once per fixed point (:func:`_lookup`)."""
+
+    unit_bin: np.ndarray  # flat (cell, ceil(u / g)) bin of each lane state inside ``unit_mask``
+    unit_mask: np.ndarray  # (R, U): the state's units do not pass the largest capacity
+    room: np.ndarray  # (1 + K, R, U): C - ceil((u + extra) / g), clipped at 0
+    room_valid: np.ndarray  # (1 + K, R, U): that count is not negative
+    top: int  # largest capacity
+
+
+def _lookup(cells: _Layout, sizes: np.ndarray, n_lanes: int, top: int) -> _Lookup:
+    """Where a cell holding u lanes counts its units, and where it finds room for ``extra`` more
+    (extra = 0, then each size): the other cells' unit count ``C - ceil((u + extra) / g)`` may
+    reach, as indices into the cell's distribution function, and whether it is not negative."""
+    u = np.arange(n_lanes)
+    units = -(-u[None, :] // cells.lanes[:, None])  # (R, U)
+    mask = units <= top
+    flat = (np.arange(cells.lanes.size)[:, None] * (top + 1) + units)[mask]
+    extra = np.r_[0, sizes]
+    left = cells.capacity[None, :, None] - (-(-(u[None, None, :] + extra[:, None, None]) // cells.lanes[None, :, None]))
+    return _Lookup(flat, mask, np.clip(left, 0, None), left >= 0, top)
+
+
+def _links_blocking(law: np.ndarray, cells: _Layout, lookup: _Lookup) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Every link at once: blocking (R, K) of each cell's sizes, the cell's lit-unit law
+    (R, top + 1) and each carrying link's lit-unit law (M, top + 1), normalised.
+
+    ``law`` (R, U) is each cell's lane law cut where its units exceed the link's capacity
+    (those states are outside the truncated set).
     """
-    rows = lane_law.shape[0]
-    unit_law = _unit_laws(lane_law, g, capacity)  # (R, C + 1)
-    # Law of the other groups' units: prefix and suffix convolutions, cut at C.
-    ones = np.zeros((1, capacity + 1))
-    ones[0, 0] = 1.0
-    prefix = [ones]
-    for r in range(rows):
-        prefix.append(_convolve_rows(prefix[-1], unit_law[r : r + 1], capacity + 1))
-    suffix = [ones]
-    for r in range(rows - 1, -1, -1):
-        suffix.append(_convolve_rows(suffix[-1], unit_law[r : r + 1], capacity + 1))
-    suffix = suffix[::-1]  # suffix[r]: groups r.. ; suffix[rows]: none
-    others = np.concatenate([_convolve_rows(prefix[r], suffix[r + 1], capacity + 1) for r in range(rows)])
-    cdf = np.cumsum(others, axis=1)  # (R, C + 1): P(others' units <= c)
-    u = np.arange(lane_law.shape[1])
-
-    def room(extra: int) -> np.ndarray:
-        """P(others' units <= C - ceil((u + extra) / g)) per row and u (0 when negative)."""
-        left = capacity - (-(-(u[None, :] + extra) // g[:, None]))
-        return np.where(left >= 0, np.take_along_axis(cdf, np.clip(left, 0, capacity), axis=1), 0.0)
-
-    fits = room(0)
-    mass = (fits * lane_law).sum(axis=1)
-    blocking = np.empty((rows, lanes.size))
-    for k, s in enumerate(lanes):
-        refused = ((fits - room(int(s))) * lane_law).sum(axis=1)
-        blocking[:, k] = np.divide(refused, mass, out=np.ones(rows), where=mass > 0)
-    total = prefix[-1][0]
-    return np.clip(blocking, 0.0, 1.0), total / total.sum() if total.sum() > 0 else total
+    n_cols = lookup.top + 1
+    # Law of ceil(U / g) per cell (zero beyond each capacity, as the lane law is).
+    unit_law = np.bincount(lookup.unit_bin, weights=law[lookup.unit_mask], minlength=law.shape[0] * n_cols)
+    unit_law = unit_law.reshape(law.shape[0], n_cols)
+    # The links' cells side by side, missing ones as "no unit" (a law at 0, neutral in a product).
+    padded = np.zeros((cells.links.size, cells.width, n_cols))
+    padded[:, :, 0] = 1.0
+    padded[cells.row, cells.slot] = unit_law
+    step = _toeplitz(padded)  # (M, width, n, n)
+    # Law of the other cells' units on the link: prefix and suffix convolutions.
+    prefix = np.zeros((cells.links.size, cells.width + 1, n_cols, 1))
+    suffix = np.zeros_like(prefix)
+    prefix[:, 0, 0] = suffix[:, cells.width, 0] = 1.0
+    for r in range(cells.width):
+        prefix[:, r + 1] = step[:, r] @ prefix[:, r]
+        back = cells.width - 1 - r
+        suffix[:, back] = step[:, back] @ suffix[:, back + 1]
+    others = (_toeplitz(suffix[cells.row, cells.slot + 1, :, 0]) @ prefix[cells.row, cells.slot])[..., 0]
+    cdf = np.cumsum(others, axis=1)  # (R, top + 1): P(others' units <= c)
+    room = np.where(lookup.room_valid, cdf[np.arange(cdf.shape[0])[None, :, None], lookup.room], 0.0)  # (1+K, R, U)
+    mass = (room[0] * law).sum(axis=1)
+    refused = ((room[0][None] - room[1:]) * law[None]).sum(axis=2).T  # (R, K)
+    blocking = np.divide(refused, mass[:, None], out=np.ones_like(refused), where=mass[:, None] > 0)
+    total = prefix[:, cells.width, :, 0] * (np.arange(n_cols)[None, :] <= cells.link_capacity[:, None])
+    sums = total.sum(axis=1, keepdims=True)
+    total = np.divide(total, sums, out=total.copy(), where=sums > 0)
+    return np.clip(blocking, 0.0, 1.0), unit_law, total
 
 
 @dataclass(frozen=True)
@@ -174,6 +220,65 @@ def _terms(groups: Sequence[GroomedGroup], by_pair: list[list[int]]) -> list[lis
                     terms.append(_Term(-1.0 if n_t % 2 else 1.0, i, tuple(cells), (i, *subset), tuple(loaded)))
         out.append(terms)
     return out
+
+
+@dataclass(frozen=True)
+class _FlatTerms:
+    """All pairs' inclusion-exclusion terms as index arrays, so that one step multiplies and
+    sums them with a few array operations, in the same order as term by term."""
+
+    pair: np.ndarray  # (T,) pair of each term
+    sign: np.ndarray  # (T,)
+    cells: np.ndarray  # flat (group * max_hops + hop) survivals of every term, term after term
+    cell_start: np.ndarray  # (T,) first entry of each term in ``cells``
+    groups: np.ndarray  # continuity factors of every term, term after term
+    group_start: np.ndarray  # (T,)
+    load_term: np.ndarray  # (D,) term of each loaded cell
+    load_cell: np.ndarray  # (D,) flat cell it loads
+    others: np.ndarray  # per loaded cell: a neutral "1" entry, then the term's other cells
+    other_start: np.ndarray  # (D,)
+
+    @classmethod
+    def of(cls, pair_terms: list[list[_Term]], max_hops: int, n_groups: int) -> _FlatTerms:
+        one = n_groups * max_hops  # index of a row of ones after the survivals
+        pair, sign, cells, cell_start, grp, grp_start = [], [], [], [], [], []
+        load_term, load_cell, others, other_start = [], [], [], []
+        for n, terms in enumerate(pair_terms):
+            for term in terms:
+                t = len(pair)
+                flat = [q * max_hops + h for q, h in term.cells]
+                pair.append(n)
+                sign.append(term.sign)
+                cell_start.append(len(cells))
+                cells.extend(flat)
+                grp_start.append(len(grp))
+                grp.extend(term.groups)
+                for c in term.loaded:
+                    load_term.append(t)
+                    load_cell.append(flat[c])
+                    other_start.append(len(others))
+                    others.extend([one, *flat[:c], *flat[c + 1 :]])
+        ints = lambda x: np.array(x, dtype=np.int64)  # noqa: E731
+        return cls(ints(pair), np.array(sign, dtype=float), ints(cells), ints(cell_start), ints(grp),
+                   ints(grp_start), ints(load_term), ints(load_cell), ints(others), ints(other_start))  # fmt: skip
+
+    def carried(self, survive: np.ndarray, cont: np.ndarray, offered: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Carried load per pair and size (N, K), and the load each (group, hop) cell is offered
+        given room on its own link (G, H, K), from the survivals (G, H, K), the continuity
+        factors (G, K) and the offered loads (N, K)."""
+        n_groups, max_hops, n_sizes = survive.shape
+        carried = np.zeros_like(offered)
+        cell_load = np.zeros((n_groups * max_hops, n_sizes))
+        if self.pair.size == 0:
+            return carried, cell_load.reshape(survive.shape)
+        values = np.concatenate([survive.reshape(-1, n_sizes), np.ones((1, n_sizes))])
+        scale = (self.sign[:, None] * offered[self.pair]) * np.multiply.reduceat(cont[self.groups], self.group_start,
+                                                                                 axis=0)  # fmt: skip
+        np.add.at(carried, self.pair, scale * np.multiply.reduceat(values[self.cells], self.cell_start, axis=0))
+        if self.load_term.size:
+            given = np.multiply.reduceat(values[self.others], self.other_start, axis=0)
+            np.add.at(cell_load, self.load_cell, scale[self.load_term] * given)
+        return carried, cell_load.reshape(survive.shape)
 
 
 def groomed_fixed_point(
@@ -228,72 +333,56 @@ def groomed_fixed_point(
     hops = _option_hops(options)
     cover = np.array([[set(grp.option.links) <= set(other.option.links) for other in groups] for grp in groups],
                      dtype=float).reshape(n_groups, n_groups)  # fmt: skip
-    cells = [(i, h, ell) for i, grp in enumerate(groups) for h, ell in enumerate(grp.option.links)]
-    cells.sort(key=lambda c: c[2])
-    cell_group = np.array([c[0] for c in cells], dtype=np.int64)
-    cell_hop = np.array([c[1] for c in cells], dtype=np.int64)
-    cell_link = np.array([c[2] for c in cells], dtype=np.int64)
+    cells = _layout(groups, caps)
     by_pair = [[i for i, grp in enumerate(groups) if grp.pair == n] for n in range(n_pairs)]
-    pair_terms = _terms(groups, by_pair)
     max_hops = max((len(grp.option.links) for grp in groups), default=0)
+    flat = _FlatTerms.of(_terms(groups, by_pair), max_hops, n_groups)
     top = int(caps.max()) if n_links else 0
+    widths = cells.capacity * cells.lanes
+    u = np.arange(int(widths.max()) + 1 if widths.size else 1)
+    inside = -(-u[:, None] // cells.lanes[None, :]) <= cells.capacity[None, :]  # a cell's units fit its link
+    lookup = _lookup(cells, sizes, u.size, top)
     pair_blocking = np.ones((n_points, n_pairs, n_sizes))
     lit_units = np.zeros((n_points, n_links))
     iterations, converged = 0, True
-    def link_state(cell_load: np.ndarray, p: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Blocking per (group, hop, size), lit-unit law per link and mean units per group."""
-        widths = caps[cell_link] * g_lanes[cell_group]
-        # Every (link, group) row's lane law at once, cut where the group's units pass C.
-        log_q = _occupancy_log(widths, sizes, cell_load[cell_group, cell_hop])  # (max width + 1, R)
-        u = np.arange(log_q.shape[0])
-        inside = -(-u[:, None] // g_lanes[cell_group][None, :]) <= caps[cell_link][None, :]
+
+    def link_state(cell_load: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """Blocking per (group, hop, size), lit-unit law per link, mean units per group and
+        mean lit units per link."""
+        # Every cell's lane law at once, cut where the group's units pass the link's capacity.
+        log_q = _occupancy_log(widths, sizes, cell_load[cells.group, cells.hop])  # (max width + 1, R)
         masked = np.where(inside, log_q, -np.inf)
         law = np.exp(masked - masked.max(axis=0)[None, :]).T
         law /= law.sum(axis=1, keepdims=True)
+        blocked, unit_law, total = _links_blocking(law, cells, lookup)
         blocking = np.zeros((n_groups, max_hops, n_sizes))
+        blocking[cells.group, cells.hop] = blocked
         occupancy = np.zeros((1, n_links, top + 1))
         occupancy[0, :, 0] = 1.0
+        occupancy[0, cells.links] = total
         mean_units = np.zeros(n_groups)
-        starts = np.flatnonzero(np.r_[True, cell_link[1:] != cell_link[:-1]])
-        for a, b in zip(starts, np.r_[starts[1:], cell_link.size]):
-            link, rows = int(cell_link[a]), slice(a, b)
-            width, g = int(widths[rows].max()), g_lanes[cell_group[rows]]
-            blocked, total = _link_blocking(law[rows, : width + 1], g, sizes, int(caps[link]))
-            blocking[cell_group[rows], cell_hop[rows]] = blocked
-            occupancy[0, link] = 0.0
-            occupancy[0, link, : total.size] = total
-            mean_units[cell_group[rows]] = _unit_laws(law[rows, : width + 1], g, int(caps[link])) @ np.arange(
-                caps[link] + 1)
-            lit_units[p, link] = float(total @ np.arange(total.size))
-        return blocking, occupancy, mean_units
+        mean_units[cells.group] = unit_law @ np.arange(top + 1)
+        lit = np.zeros(n_links)
+        lit[cells.links] = total @ np.arange(top + 1)
+        return blocking, occupancy, mean_units, lit
 
     def step(blocking: np.ndarray, occupancy: np.ndarray, mean_units: np.ndarray, p: int) -> np.ndarray:
         """Thinned lane loads per (group, hop, size); sets the pairs' blocking."""
         aligned = np.repeat(cover @ mean_units, len(needs))[None, :]
         cont = _continuity(hops, len(options), occupancy, caps, aligned)[0][option_of]  # (G, K)
-        survive = 1.0 - blocking
-        cell_load = np.zeros((n_groups, max_hops, n_sizes))
-        for n, terms in enumerate(pair_terms):
-            carried = np.zeros(n_sizes)
-            for term in terms:
-                values = np.array([survive[q, h] for q, h in term.cells])  # (cells, K)
-                scale = term.sign * offered[p, n] * np.prod(cont[list(term.groups)], axis=0)
-                carried += scale * values.prod(axis=0)
-                for c in term.loaded:
-                    q, h = term.cells[c]
-                    # Given room on this link: the term's other links only.
-                    cell_load[q, h] += scale * np.prod(np.delete(values, c, axis=0), axis=0)
-            accepted = np.divide(carried, offered[p, n], out=np.zeros(n_sizes), where=offered[p, n] > 0)
-            pair_blocking[p, n] = np.clip(1.0 - accepted, 0.0, 1.0)
+        carried, cell_load = flat.carried(1.0 - blocking, cont, offered[p])
+        accepted = np.divide(carried, offered[p], out=np.zeros_like(carried), where=offered[p] > 0)
+        pair_blocking[p] = np.clip(1.0 - accepted, 0.0, 1.0)
         return np.maximum(cell_load, 0.0)
 
+    # Every point starts from the same empty links, so that its result does not depend on the others.
+    empty = link_state(np.zeros((n_groups, max_hops, n_sizes)))
     for p in range(n_points):
-        # Every point starts from empty links, so that its result does not depend on the others.
-        blocking, occupancy, mean_units = link_state(np.zeros((n_groups, max_hops, n_sizes)), p)
+        blocking, occupancy, mean_units, _ = empty
         cell_load = step(blocking, occupancy, mean_units, p)
         weight, previous, done = damping, np.inf, False
         for it in range(1, max_iter + 1):
-            new_blocking, occupancy, mean_units = link_state(cell_load, p)
+            new_blocking, occupancy, mean_units, lit_units[p] = link_state(cell_load)
             change = float(np.abs(new_blocking - blocking).max()) if blocking.size else 0.0
             blocking = new_blocking
             new_load = step(blocking, occupancy, mean_units, p)

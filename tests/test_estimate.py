@@ -163,9 +163,10 @@ def test_fiber_switching_with_grooming_is_kaufman_roberts_over_the_provisioned_l
 # ---- which method runs: routed while cheap, the plain Erlang fixed point on large networks ----
 
 
-def _datacenter_line(sites: int) -> Topology:
-    """``sites`` datacenters in a line: pair (i, j) has one route of |i - j| hops."""
-    f = fiber_type(cores=1, channels=10)
+def _datacenter_line(sites: int, cores: int = 1) -> Topology:
+    """``sites`` datacenters in a line of ``cores``-core fiber of 10 channels: pair (i, j) has one
+    route of |i - j| hops."""
+    f = fiber_type(cores=cores, channels=10)
     ids = [f"D{i:02d}" for i in range(sites)]
     cables = tuple(Cable(a, b, 5.0, f.name, 1) for a, b in zip(ids, ids[1:]))
     return Topology("line", {f.name: f}, tuple(Site(s, "datacenter") for s in ids), cables)
@@ -198,14 +199,6 @@ def test_the_fixed_point_method_puts_each_pair_on_its_first_route():
     assert plain["method"].tolist() == ["fixed-point"] and routed["method"].tolist() == ["routed"]
 
 
-def test_auto_takes_the_routed_estimate_on_a_small_network():
-    sc = scenario(_datacenter_line(5), [INDEPENDENT], loads=(4.0, 8.0))
-    auto, _ = estimate(sc, route_finder=shortest_routes, method="auto")
-    routed, _ = estimate(sc, route_finder=shortest_routes)
-    assert auto["method"].tolist() == ["routed", "routed"]
-    assert auto["blocking"].tolist() == routed["blocking"].tolist()
-
-
 def test_auto_falls_back_to_the_fixed_point_on_a_large_network():
     # 40 datacenters in a line, one route per pair: sum over pairs of hops = n (n^2 - 1) / 6 =
     # 10,660 route hops, times 10 load points = 106,600, over the limit of 100,000.
@@ -218,6 +211,41 @@ def test_auto_falls_back_to_the_fixed_point_on_a_large_network():
     assert auto["blocking"].tolist() == plain["blocking"].tolist()
     # The same line at 9 load points (95,940 route hops x points) stays within the limit.
     assert sites * (sites**2 - 1) // 6 * 9 <= ROUTED_WORK_LIMIT
+
+
+# On weakly coupled 7-core fiber of 10 channels: joint units of 7 lanes, 10 units per cable.
+GROOMED_JOINT = Architecture("joint-groomed", "joint", share=True)
+
+
+def _groomed_work(sites: int, points: int) -> float:
+    # docs/estimate.md: C g + C^2 / 14 states per route hop (C = 10 units of g = 7 lanes), 12 of
+    # them per route hop of the routed estimate; one route of |i - j| hops per pair on a line.
+    return points * sites * (sites**2 - 1) / 6 * (10 * 7 + 10**2 / 14) / 12
+
+
+@pytest.mark.parametrize("cores, arch", [(1, INDEPENDENT), (7, GROOMED_JOINT)])
+def test_auto_takes_the_routed_estimate_on_a_small_network(cores, arch):
+    # 5 sites, 2 points: 20 route hops x 2 points, 257 as the grooming estimate's work.
+    assert _groomed_work(5, 2) <= ROUTED_WORK_LIMIT
+    sc = scenario(_datacenter_line(5, cores), [arch], loads=(4.0, 8.0))
+    auto, _ = estimate(sc, route_finder=shortest_routes, method="auto")
+    routed, _ = estimate(sc, route_finder=shortest_routes)
+    assert auto["method"].tolist() == ["routed", "routed"]
+    assert auto["blocking"].tolist() == routed["blocking"].tolist()
+
+
+def test_auto_counts_the_grooming_work_and_falls_back():
+    # 20 datacenters in a line, 12 load points: 1,330 route hops x 12 = 15,960, far within the
+    # limit as route hops, but 102,600 as the grooming estimate's work, over it.
+    sites, loads = 20, tuple(float(a) for a in range(1, 13))
+    assert sites * (sites**2 - 1) // 6 * len(loads) <= ROUTED_WORK_LIMIT < _groomed_work(sites, len(loads))
+    sc = scenario(_datacenter_line(sites, cores=7), [GROOMED_JOINT], loads=loads)
+    auto, _ = estimate(sc, route_finder=shortest_routes, method="auto")
+    plain, _ = estimate(sc, route_finder=shortest_routes, method="fixed-point")
+    assert set(auto["method"]) == {"fixed-point"}
+    assert auto["blocking"].tolist() == plain["blocking"].tolist()
+    # The same line at 11 load points (94,050) stays within the limit.
+    assert _groomed_work(sites, 11) <= ROUTED_WORK_LIMIT
 
 
 def test_an_unknown_method_is_refused():

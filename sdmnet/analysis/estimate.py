@@ -13,8 +13,9 @@ For each architecture the network becomes a loss network of *units* (docs/model.
 
 Two methods (:data:`METHODS`): ``"routed"`` (the above, the default) and ``"fixed-point"``, the
 plain Erlang fixed point: each stream on its first route only, no continuity rule.  The routed
-method's work grows with the hops of every candidate route; ``"auto"`` takes it while the route
-hops times the load points stay within :data:`ROUTED_WORK_LIMIT`, the fixed point above.
+method's work grows with the hops of every candidate route (under grooming with the lane states
+of every route's hops, :func:`groomed_work`); ``"auto"`` takes it while that work times the load
+points stays within :data:`ROUTED_WORK_LIMIT`, the fixed point above.
 
 What each approximation assumes and where it fails: ``docs/estimate.md``.
 """
@@ -47,6 +48,7 @@ __all__ = [
     "RouteFinder",
     "estimate",
     "estimate_architecture",
+    "groomed_work",
     "routed_work",
 ]
 
@@ -74,6 +76,15 @@ METHODS = ("routed", "fixed-point")
 #: 4.6 s at 113,000 (60 sites) and 0.3 s at 19,000 (30 sites), one load point each; the bundled
 #: scenarios stay under 12,000 (docs/estimate.md, "What it costs on large networks").
 ROUTED_WORK_LIMIT = 100_000
+
+#: The grooming estimate (:func:`groomed_work`) counts, per hop of every route of every pair and
+#: per load point, ``C g + C^2 / GROOMED_UNITS_PER_LANE`` states (C units of g lanes on the hop's
+#: cable: the lane law of the hop, and the convolutions of the cable's unit laws), and
+#: ``GROOMED_STATES_PER_HOP`` of them cost about what one route hop of the routed estimate does:
+#: measured about 50 us of CPU per route hop equivalent (32-52 us) on generated regions of 6 to
+#: 20 sites with 64 to 256 units of 7 lanes per cable, 31 to 66 iterations (docs/estimate.md).
+GROOMED_STATES_PER_HOP = 12
+GROOMED_UNITS_PER_LANE = 14
 
 # Settings of the fixed point used for every estimate.
 _DAMPING = 0.5
@@ -263,6 +274,18 @@ def routed_work(model: _Model, points: int) -> int:
     return points * sum(len(option.links) for stream in model.streams for option in stream.options)
 
 
+def groomed_work(model: _Model, points: int) -> int:
+    """What the grooming estimate costs, in route hops of the routed estimate times ``points``
+    (:data:`GROOMED_STATES_PER_HOP`): each hop of each pair's route holds a lane law of ``C g``
+    states and takes part in convolutions of ``C`` units."""
+    states = 0.0
+    for grp in model.groups:
+        for link in grp.option.links:
+            units = int(model.capacities[link])
+            states += units * (grp.lanes_per_unit + units / GROOMED_UNITS_PER_LANE)
+    return math.ceil(points * states / GROOMED_STATES_PER_HOP)
+
+
 def _method_for(model: _Model, points: int, method: str) -> str:
     """The method that runs: ``method``, or for ``"auto"`` the routed one while it is cheap.
     Fiber paths provisioned per pair are always solved over their pools (no continuity, cheap)."""
@@ -271,7 +294,9 @@ def _method_for(model: _Model, points: int, method: str) -> str:
     if model.provisioned:
         return "routed"
     if method == "auto":
-        return "routed" if routed_work(model, points) <= ROUTED_WORK_LIMIT else "fixed-point"
+        # Under grooming the routed method runs the grooming estimate, not the routed fixed point.
+        work = groomed_work(model, points) if model.groomed else routed_work(model, points)
+        return "routed" if work <= ROUTED_WORK_LIMIT else "fixed-point"
     return method
 
 

@@ -18,30 +18,10 @@ import itertools
 
 import numpy as np
 import pytest
-from scipy import sparse
-from scipy.sparse.linalg import spsolve
+from markov import stationary
 
 from sdmnet.analysis.grooming import GroomedGroup, groomed_fixed_point
 from sdmnet.analysis.reduced_load import RouteOption
-
-
-def _stationary(states: list, moves) -> np.ndarray:
-    """Stationary distribution of the chain on ``states``; ``moves(s)`` yields (next, rate)."""
-    index = {s: i for i, s in enumerate(states)}
-    rows, cols, rates = [], [], []
-    for s in states:
-        for t, rate in moves(s):
-            rows.append(index[s])
-            cols.append(index[t])
-            rates.append(rate)
-    n = len(states)
-    q = sparse.coo_matrix((rates, (rows, cols)), shape=(n, n)).tocsr()
-    q = q - sparse.diags(np.asarray(q.sum(axis=1)).ravel())
-    a = q.T.tolil()
-    a[n - 1, :] = np.ones(n)
-    rhs = np.zeros(n)
-    rhs[-1] = 1.0
-    return spsolve(a.tocsc(), rhs)
 
 
 def _kaufman_roberts(capacity: int, loads: list[float], sizes: list[int]) -> np.ndarray:
@@ -93,7 +73,7 @@ def _tight_chain(capacity: int, g: int, lanes: list[int], loads: np.ndarray) -> 
                 if units(up) <= capacity:
                     yield up, float(loads[n, k])
 
-    pi = _stationary(states, moves)
+    pi = stationary(states, moves)
     blocking = np.zeros((n_pairs, n_sizes))
     for st, p in zip(states, pi):
         for n in range(n_pairs):
@@ -157,7 +137,7 @@ def _engine_chain(capacity: int, g: int, loads: list[float]) -> np.ndarray:
                     units[i] = f - 1
                 yield tuple(tuple(units) if m == n else u for m, u in enumerate(state)), float(f)
 
-    pi = _stationary(states, moves)
+    pi = stationary(states, moves)
     return np.array([sum(p for st, p in zip(states, pi) if arrive(st, n) is None) for n in range(n_pairs)])
 
 

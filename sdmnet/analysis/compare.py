@@ -1,9 +1,10 @@
 """Analytic estimate beside the simulation: where they disagree and which assumption breaks.
 
 The estimate (:mod:`sdmnet.analysis.estimate`) treats every cable as a complete-sharing group of units
-that blocks independently of the others, offers overflow to later routes as Poisson traffic,
-takes free channels as spread at random for the continuity rule and packs each pair's lit
-units tight under grooming.
+that blocks independently of the others (save pairs of cables that the same calls cross, for
+pairs with alternate routes), offers overflow to later routes as Pascal traffic of its
+peakedness (as Poisson traffic under grooming), takes free channels as spread at random for
+the continuity rule and packs each pair's lit units tight under grooming.
 When the estimate falls outside the simulated interval, :func:`explain_gap` names the
 assumptions that can move it in the direction of the gap (see docs/estimate.md).
 """
@@ -46,7 +47,8 @@ def explain_gap(setup: EngineSetup, estimate: float, low: float, high: float, me
     else:
         direction = "estimate below the interval"
         if alternates and not plain:
-            reasons.append("overflow to later routes offered as Poisson traffic (it is peakier: low at light load)")
+            reasons.append("overflow between routes approximated (peakedness by two moments, Poisson under grooming; "
+                           "cables correlated only pairwise: low where all routes of a pair fill together)")
         if multi_hop and not setup.whole_fiber and plain:
             reasons.append("no channel continuity (the plain fixed point takes any free units on each hop)")
         if arch.share and not setup.whole_fiber and plain:

@@ -15,9 +15,21 @@ Model (docs/estimate.md, "The routed estimate"):
   ``P(r accepts, r' < r refuse) = sum over subsets T of earlier routes (-1)^|T|
   P(r and every route in T accept)``.  A link sees the stream's calls of route r thinned by
   the other links of r and by the earlier routes' refusal (conditioned on the link itself
-  having room), so overflow is offered to the next route as Poisson traffic (peakedness is
-  ignored; common practice in reduced-load methods, e.g. Chung, Kashper and Ross, IEEE/ACM
-  Trans. Netw. 1(1), 1993, whose link-independence scheme this follows).
+  having room), the link-independence scheme of Chung, Kashper and Ross (IEEE/ACM Trans.
+  Netw. 1(1), 1993).
+* **Peaked overflow.** The calls a later route gets are the earlier route's overflow, which
+  comes in bursts.  On the links that a later route meets first (on no earlier route of the
+  stream) they are offered as Pascal traffic with the overflow's peakedness (Riordan's, of
+  the previous route's refusing links, for the stream's parcel) and see that traffic's call
+  congestion; the link's other calls see its time congestion (Delbrouck's recursion:
+  :mod:`sdmnet.analysis.overflow`).  Without alternate routes nothing changes.
+* **Shared calls.** For a stream with alternate routes, two links of a term that the same
+  calls cross (a route over both) are busy together: the term's independent product is
+  multiplied, per such pair, by ``P(both have room) / (P(one has room) P(the other has room))``
+  from the two-link product form of those calls and the rest of each link's calls
+  (:func:`_pair_correlation`); neighbours only along one route, so that a chain of factors
+  does not count one stream's dependence many times.  A stream with one route keeps the plain
+  fixed point.
 * **Channel continuity.** A route of several hops also needs its units on *common* slots: a
   slot is a channel (lane change) or a channel and core group (no lane change); on hop h a slot
   has ``positions[h]`` unit positions (fiber pairs x core groups, or fiber pairs).  Given that
@@ -42,6 +54,7 @@ from itertools import combinations
 import numpy as np
 
 from .analytic import _blocking_from_log, _occupancy_log
+from .overflow import bpp_link_blocking, overflow_peakedness, thinned_peakedness
 
 __all__ = ["RouteOption", "RoutedStream", "RoutedResult", "routed_fixed_point"]
 
@@ -138,6 +151,7 @@ class _Terms:
     size_index: np.ndarray  # (I,)
     hop: np.ndarray  # (I,)
     on_route: np.ndarray  # (I,) bool: the link belongs to route r (it is loaded by the term)
+    peaked: np.ndarray  # (I,) bool: on route r, r > 0, on no earlier route (overflow meets it first)
     hops: int
     factor_term: np.ndarray  # (F,) term of each continuity factor
     factor_option: np.ndarray  # (F,) global option index of the factor
@@ -146,7 +160,7 @@ class _Terms:
 def _build_terms(streams: Sequence[RoutedStream], size_of: dict[int, int]) -> tuple[_Terms, list]:
     options = []  # (stream, option index within stream, RouteOption), in global order
     sign, t_stream, t_option = [], [], []
-    stream, link, size_index, hop, on_route = [], [], [], [], []
+    stream, link, size_index, hop, on_route, peaked = [], [], [], [], [], []
     f_term, f_option = [], []
     hops = 0
     for s, st in enumerate(streams):
@@ -170,12 +184,14 @@ def _build_terms(streams: Sequence[RoutedStream], size_of: dict[int, int]) -> tu
                         f_term.append(t)
                         f_option.append(first + q)
                     route_links = set(opt.links)
+                    earlier_links = {ell for q in range(r) for ell in st.options[q].links}
                     for h, (ell, u) in enumerate(units.items()):
                         stream.append(t)
                         link.append(ell)
                         size_index.append(size_of[u])
                         hop.append(h)
                         on_route.append(ell in route_links)
+                        peaked.append(r > 0 and ell in route_links and ell not in earlier_links)
                     hops = max(hops, len(units))
     terms = _Terms(
         sign=np.array(sign),
@@ -186,6 +202,7 @@ def _build_terms(streams: Sequence[RoutedStream], size_of: dict[int, int]) -> tu
         size_index=np.array(size_index, dtype=np.int64),
         hop=np.array(hop, dtype=np.int64),
         on_route=np.array(on_route, dtype=bool),
+        peaked=np.array(peaked, dtype=bool),
         hops=hops,
         factor_term=np.array(f_term, dtype=np.int64),
         factor_option=np.array(f_option, dtype=np.int64),
@@ -365,6 +382,163 @@ def _continuity(hops: _OptionHops, n_options: int, occupancy: np.ndarray, capaci
     return np.clip(out, 0.0, 1.0)
 
 
+@dataclass(frozen=True)
+class _SharedPairs:
+    """Link pairs whose occupancies the same calls couple, where an alternate route's terms
+    meet them: ``term`` (non-decreasing) and ``entry`` name a term and one (l, m, size) entry
+    whose factor it multiplies; per entry its links and size; per crossing (an option that
+    crosses both links of an entry's pair) the entry's pair, the option and its size."""
+
+    term: np.ndarray
+    entry: np.ndarray
+    first: np.ndarray  # (N,) link l of each entry
+    second: np.ndarray  # (N,) link m
+    size_index: np.ndarray  # (N,)
+    entry_pair: np.ndarray  # (N,) pair (l, m) of each entry
+    n_pairs: int
+    cross_pair: np.ndarray  # (X,)
+    cross_option: np.ndarray  # (X,)
+    cross_size: np.ndarray  # (X,)
+
+
+def _shared_pairs(terms: _Terms, options: list, size_of: dict[int, int]) -> _SharedPairs:
+    """The (term, link pair) couples where shared calls correct independence: pairs of a term's
+    links that some calls cross together, in every term of a stream with alternate routes (all
+    of them, so that the stream's inclusion-exclusion stays consistent; a stream with one route
+    keeps the plain fixed point).  Two links of one route count only as neighbours: along the
+    route they make a chain, and a chain of pairwise factors is exact when one stream loads
+    every link alike, where a factor for every pair would count that dependence many times."""
+    crossing: dict[tuple[int, int], list[tuple[int, int]]] = {}
+    for o, (_s, _r, opt) in enumerate(options):
+        for i, (a, u) in enumerate(zip(opt.links, opt.units)):
+            for b in opt.links[i + 1 :]:
+                crossing.setdefault((min(a, b), max(a, b)), []).append((o, size_of[u]))
+    pair_ids: dict[tuple[int, int], int] = {}
+    entry_ids: dict[tuple[int, int, int], int] = {}
+    term_list, entry_list = [], []
+    routes_of = np.bincount(np.array([s_ for s_, _r, _o in options], dtype=np.int64))
+    alone = routes_of < 2
+    bounds = np.flatnonzero(np.r_[True, terms.factor_term[1:] != terms.factor_term[:-1], True])
+    for lo, hi in zip(bounds[:-1], bounds[1:]):
+        t = int(terms.factor_term[lo])
+        if alone[terms.term_stream[t]]:
+            continue
+        routes = [options[int(q)][2] for q in terms.factor_option[lo:hi]]
+        units: dict[int, int] = {}
+        for opt in routes:
+            for ell, u in zip(opt.links, opt.units):
+                units[ell] = max(units.get(ell, 0), u)
+        # Two links of one earlier route: only neighbours (a chain along the route).
+        apart = {(min(a, b), max(a, b)) for opt in routes for i, a in enumerate(opt.links)
+                 for b in opt.links[i + 2 :]}  # fmt: skip
+        links = list(units)
+        for i, a in enumerate(links):
+            for b in links[i + 1 :]:
+                key = (min(a, b), max(a, b))
+                if key in apart or key not in crossing:
+                    continue
+                pair_ids.setdefault(key, len(pair_ids))
+                entry = entry_ids.setdefault((*key, size_of[max(units[a], units[b])]), len(entry_ids))
+                term_list.append(t)
+                entry_list.append(entry)
+    keys = list(entry_ids)
+    cross_pair, cross_option, cross_size = [], [], []
+    for key, pair in pair_ids.items():
+        for o, k in crossing[key]:
+            cross_pair.append(pair)
+            cross_option.append(o)
+            cross_size.append(k)
+    as_int = lambda x: np.array(x, dtype=np.int64)  # noqa: E731
+    return _SharedPairs(
+        as_int(term_list), as_int(entry_list), as_int([k[0] for k in keys]), as_int([k[1] for k in keys]),
+        as_int([k[2] for k in keys]), as_int([pair_ids[k[:2]] for k in keys]), len(pair_ids),
+        as_int(cross_pair), as_int(cross_option), as_int(cross_size),
+    )
+
+
+def _normalised_laws(capacities: np.ndarray, sizes: np.ndarray, loads: np.ndarray) -> np.ndarray:
+    """(R, Cmax + 1): Kaufman-Roberts occupancy laws per row, cut at each row's capacity."""
+    log_q = _occupancy_log(capacities, sizes, loads)
+    j = np.arange(log_q.shape[0])[:, None]
+    masked = np.where(j <= capacities[None, :], log_q, -np.inf)
+    peak = masked.max(axis=0)
+    p = np.exp(masked - np.where(np.isfinite(peak), peak, 0.0)[None, :])
+    return (p / p.sum(axis=0, keepdims=True)).T
+
+
+def _pair_correlation(pairs: _SharedPairs, blocking: np.ndarray, link_loads: np.ndarray, option_traffic: np.ndarray,
+                      capacities: np.ndarray, sizes: np.ndarray) -> np.ndarray:  # fmt: skip
+    """Factor (P, N) ``P(l and m have room) / (P(l has room) P(m has room))`` per entry.
+
+    The calls that cross both links (load ``Y``) and the rest of each link's calls (``U_l``,
+    ``U_m``) are taken as independent Kaufman-Roberts streams, restricted jointly to
+    ``Y + U_l <= C_l`` and ``Y + U_m <= C_m`` (the product form of fixed routing on two links;
+    F. Kelly, "Loss networks", Ann. Appl. Probab. 1(3), 1991).  The factor is computed within
+    that two-link law, so its own marginal errors cancel, and multiplies the independent
+    product of the fixed point.
+    """
+    n_points = blocking.shape[0]
+    n_sizes = sizes.size
+    kappa = np.ones((n_points, pairs.first.size))
+    # Only where both links refuse calls now and then: elsewhere the factor is 1 within 1e-9.
+    active = ((blocking[:, pairs.first, pairs.size_index] > 1e-9)
+              & (blocking[:, pairs.second, pairs.size_index] > 1e-9)).any(axis=0)  # fmt: skip
+    if not active.any():
+        return kappa
+    entries = np.flatnonzero(active)
+    used, e_pair = np.unique(pairs.entry_pair[entries], return_inverse=True)
+    e_pair = e_pair.ravel()
+    n_used = used.size
+    local = np.full(pairs.n_pairs, -1, dtype=np.int64)
+    local[used] = np.arange(n_used)
+    first_link = pairs.first[_first_entry(pairs)][used]
+    second_link = pairs.second[_first_entry(pairs)][used]
+    crosses = np.flatnonzero(local[pairs.cross_pair] >= 0)
+    cross_pair, cross_size = local[pairs.cross_pair[crosses]], pairs.cross_size[crosses]
+    room = 1.0 - blocking  # (P, L, K)
+    # Load of the shared calls offered to the pair given room on both (carried / both rooms).
+    both = room[:, first_link[cross_pair], cross_size] * room[:, second_link[cross_pair], cross_size]
+    traffic = option_traffic[:, pairs.cross_option[crosses]]
+    shared = np.zeros((n_points, n_used, n_sizes))
+    np.add.at(shared, (slice(None), cross_pair, cross_size),
+              np.divide(traffic, both, out=np.zeros_like(both), where=both > 0))
+    # No more than either link is offered (the division by the rooms overshoots at heavy load).
+    shared = np.minimum(shared, np.minimum(link_loads[:, first_link, :], link_loads[:, second_link, :]))
+    rest_l = np.maximum(link_loads[:, first_link, :] - shared, 0.0)
+    rest_m = np.maximum(link_loads[:, second_link, :] - shared, 0.0)
+    cap_l, cap_m = capacities[first_link], capacities[second_link]
+    rows_caps = np.concatenate([np.tile(np.minimum(cap_l, cap_m), n_points), np.tile(cap_l, n_points),
+                                np.tile(cap_m, n_points)])  # fmt: skip
+    laws = _normalised_laws(rows_caps, sizes, np.concatenate(
+        [shared.reshape(-1, n_sizes), rest_l.reshape(-1, n_sizes), rest_m.reshape(-1, n_sizes)]))
+    width = laws.shape[1]
+    law_y, law_l, law_m = (laws[i * n_points * n_used : (i + 1) * n_points * n_used].reshape(
+        n_points, n_used, width) for i in range(3))  # fmt: skip
+    cdf_l, cdf_m = np.cumsum(law_l, axis=2), np.cumsum(law_m, axis=2)
+    y = np.arange(width)
+    b = sizes[pairs.size_index[entries]]
+
+    def below(cdf: np.ndarray, cap: np.ndarray, need: np.ndarray) -> np.ndarray:
+        """P(U <= cap - need - y) per point, entry and y (0 where negative)."""
+        idx = cap[e_pair][:, None] - need[:, None] - y[None, :]
+        return np.where(idx >= 0, cdf[:, e_pair[:, None], np.clip(idx, 0, width - 1)], 0.0)
+
+    wy = law_y[:, e_pair]
+    l0, l1 = below(cdf_l, cap_l, 0 * b), below(cdf_l, cap_l, b)
+    m0, m1 = below(cdf_m, cap_m, 0 * b), below(cdf_m, cap_m, b)
+    n_all, n_both = (wy * l0 * m0).sum(axis=2), (wy * l1 * m1).sum(axis=2)
+    den = (wy * l1 * m0).sum(axis=2) * (wy * l0 * m1).sum(axis=2)
+    kappa[:, entries] = np.clip(np.divide(n_both * n_all, den, out=np.ones_like(den), where=den > 0), 1e-3, 1e3)
+    return kappa
+
+
+def _first_entry(pairs: _SharedPairs) -> np.ndarray:
+    """(n_pairs,): an entry of each pair (to read the pair's two links)."""
+    first = np.zeros(pairs.n_pairs, dtype=np.int64)
+    first[pairs.entry_pair[::-1]] = np.arange(pairs.entry_pair.size)[::-1]
+    return first
+
+
 def routed_fixed_point(
     capacities: Sequence[int],
     streams: Sequence[RoutedStream],
@@ -373,6 +547,8 @@ def routed_fixed_point(
     damping: float = 0.5,
     tol: float = 1e-9,
     max_iter: int = 2000,
+    peakedness: bool = True,
+    shared_calls: bool = True,
 ) -> RoutedResult:
     """Reduced-load fixed point with routes tried in order and channel continuity.
 
@@ -391,6 +567,14 @@ def routed_fixed_point(
         Stop when the largest change of a link blocking falls below this.
     max_iter : int
         Give up (``converged = False``) after this many iterations.
+    peakedness : bool
+        Offer the overflow of earlier routes to the links a later route meets first as peaked
+        (Pascal) traffic of Riordan's peakedness (:mod:`sdmnet.analysis.overflow`); False offers
+        it as Poisson traffic.  Without alternate routes there is no overflow and no difference.
+    shared_calls : bool
+        Where a later route is weighed against the refusal of earlier ones, count two links
+        that the same calls cross as busy together (:func:`_pair_correlation`); False takes
+        every link as independent.  Without alternate routes there is no difference.
 
     Returns
     -------
@@ -425,7 +609,46 @@ def routed_fixed_point(
     used = np.unique(terms.link) if terms.link.size else np.array([], dtype=np.int64)
     top = int(caps[used].max()) if used.size else 0
 
-    def link_state(link_loads: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    # Overflow: where each later route's calls come from (the previous route's links that it
+    # does not share), to give them the peakedness of that route's overflow.
+    prev_option, prev_link, prev_size, prev_before = [], [], [], []
+    first_of_stream: dict[int, int] = {}
+    for o, (s_, r, opt) in enumerate(options):
+        first_of_stream.setdefault(s_, o)
+        if r == 0:
+            continue
+        before = options[o - 1][2]
+        for ell, u in zip(before.links, before.units):
+            if ell not in opt.links:
+                prev_option.append(o)
+                prev_link.append(ell)
+                prev_size.append(size_of[u])
+                prev_before.append(o - 1)
+    prev_option_a = np.array(prev_option, dtype=np.int64)
+    prev_link_a = np.array(prev_link, dtype=np.int64)
+    prev_size_a = np.array(prev_size, dtype=np.int64)
+    prev_before_a = np.array(prev_before, dtype=np.int64)
+    option_first = np.array([first_of_stream[o[0]] for o in options], dtype=np.int64)
+    peaked_terms = peakedness and bool(terms.peaked.any())
+    # The term-links an overflow meets first, grouped by (option, link, size): one parcel each.
+    peaked_at = np.flatnonzero(terms.peaked)
+    parcel_keys = np.stack([terms.term_option[terms.stream[peaked_at]], flat[peaked_at]])
+    parcel_pairs, parcel_index = np.unique(parcel_keys.reshape(2, -1), axis=1, return_inverse=True)
+    parcel_index = parcel_index.ravel()
+    parcel_option, parcel_cell, n_parcels = parcel_pairs[0], parcel_pairs[1], parcel_pairs.shape[1]
+    stream_load = load_matrix[:, [o[0] for o in options]] * scale[[o[0] for o in options]][None, :]
+
+    pairs = _shared_pairs(terms, options, size_of) if shared_calls else None
+
+    def refused(carried: np.ndarray) -> np.ndarray:
+        """(P, O): the share of each option's stream that its earlier options refused."""
+        cum = np.cumsum(carried, axis=1)
+        start = cum[:, option_first] - carried[:, option_first]
+        return np.clip(1.0 - (cum - carried - start), 0.0, 1.0)
+
+    def link_state(link_loads: np.ndarray, peaked: np.ndarray, variance: np.ndarray, call_guess: np.ndarray
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:  # fmt: skip
+        """Time congestion (P, L, K), the overflow's call congestion (P, L, K) and occupancy."""
         blocking = np.zeros((n_points, n_links, n_sizes))
         occupancy = np.zeros((n_points, n_links, top + 1))
         occupancy[:, :, 0] = 1.0
@@ -433,43 +656,119 @@ def routed_fixed_point(
             rows_caps = np.tile(caps[used], n_points)
             rows = link_loads[:, used, :].reshape(-1, n_sizes)
             log_q = _occupancy_log(rows_caps, sizes, rows)  # (top + 1, R)
-            blocking[:, used, :] = _blocking_from_log(log_q, rows_caps, sizes).reshape(n_points, used.size, n_sizes)
+            flat_blocking = _blocking_from_log(log_q, rows_caps, sizes)
+            flat_call = flat_blocking.copy()
+            # Links reached by overflow: Poisson and Pascal classes (Delbrouck's recursion);
+            # the others keep Kaufman-Roberts exactly.
+            rows_peaked = peaked[:, used, :].reshape(-1, n_sizes)
+            hit = np.flatnonzero((rows_peaked > 0).any(axis=1))
+            if hit.size:
+                rows_var = variance[:, used, :].reshape(-1, n_sizes)[hit]
+                z = np.divide(rows_var, rows_peaked[hit], out=np.ones_like(rows_var), where=rows_peaked[hit] > 0)
+                guess = call_guess[:, used, :].reshape(-1, n_sizes)[hit]
+                time, call, log_hit = bpp_link_blocking(rows_caps[hit], sizes, rows[hit], rows_peaked[hit], z, guess)
+                flat_blocking[hit], flat_call[hit] = time, call
+                # The hit links' recursion runs to their own largest capacity only.
+                log_q[:, hit] = -np.inf
+                log_q[: log_hit.shape[0], hit] = log_hit
+            blocking[:, used, :] = flat_blocking.reshape(n_points, used.size, n_sizes)
+            call_blocking = np.zeros_like(blocking)
+            call_blocking[:, used, :] = flat_call.reshape(n_points, used.size, n_sizes)
             j = np.arange(log_q.shape[0])[:, None]
             masked = np.where(j <= rows_caps[None, :], log_q, -np.inf)
             peak = masked.max(axis=0)
             p = np.exp(masked - np.where(np.isfinite(peak), peak, 0.0)[None, :])
             p /= p.sum(axis=0, keepdims=True)
             occupancy[:, used, :] = p.T.reshape(n_points, used.size, -1)[:, :, : top + 1]
+        else:
+            call_blocking = blocking.copy()
         # A call larger than its link never fits (no load reaches it then, so set it here).
-        blocking = np.maximum(blocking, (sizes[None, None, :] > caps[None, :, None]).astype(float))
-        return blocking, occupancy
+        too_large = (sizes[None, None, :] > caps[None, :, None]).astype(float)
+        return np.maximum(blocking, too_large), np.maximum(call_blocking, too_large), occupancy
 
     option_stream = np.array([o[0] for o in options], dtype=np.int64)
     cover_load = load_matrix[:, option_stream[option_hops.cover_by]] * scale[option_stream[option_hops.cover_by]]
 
-    def step(blocking: np.ndarray, occupancy: np.ndarray, carried: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def option_peakedness(blocking: np.ndarray, loads_now: np.ndarray, carried: np.ndarray) -> np.ndarray:
+        """Peakedness (P, O) of the overflow each option is offered: Riordan's on each link of the
+        previous route that it does not share, for the stream's parcel of that link's load,
+        averaged with the links' blocking as weights (1 for first routes)."""
+        z_option = np.ones((n_points, len(options)))
+        if prev_option_a.size == 0:
+            return z_option
+        b_units = sizes[prev_size_a].astype(float)
+        # The link's load counted in calls of the stream's size, and its servers.
+        unit_load = (loads_now * sizes[None, None, :]).sum(axis=2)[:, prev_link_a]  # (P, E)
+        load_b = unit_load / b_units[None, :]
+        servers = caps[prev_link_a] / b_units
+        block = blocking[:, prev_link_a, prev_size_a]
+        z_link = overflow_peakedness(load_b, servers[None, :], block)
+        # Offered to the previous route: what the options before it refused.
+        parcel = stream_load[:, prev_before_a] * refused(carried)[:, prev_before_a]
+        share = np.divide(parcel, load_b, out=np.zeros_like(parcel), where=load_b > 0)
+        z_parcel = thinned_peakedness(z_link, share)
+        weight = _add_at(prev_option_a, block, len(options))
+        weighted = _add_at(prev_option_a, block * z_parcel, len(options))
+        return np.where(weight > 0, np.divide(weighted, weight, out=np.ones_like(weight), where=weight > 0), 1.0)
+
+    def step(blocking: np.ndarray, call_blocking: np.ndarray, occupancy: np.ndarray, carried: np.ndarray,
+             z_option: np.ndarray, link_loads_now: np.ndarray
+             ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:  # fmt: skip
         survive = 1.0 - blocking[:, terms.link, terms.size_index]
+        if peaked_terms:
+            survive = np.where(terms.peaked[None, :], 1.0 - call_blocking[:, terms.link, terms.size_index], survive)
         aligned = _add_at(option_hops.cover_option, carried[:, option_hops.cover_by] * cover_load
                           * option_hops.cover_units[None, :], len(options))  # fmt: skip
         factor = _continuity(option_hops, len(options), occupancy, caps, aligned)  # (P, O)
         route_factor = np.ones((n_points, n_terms))
         _reduce_at(np.multiply, route_factor, terms.factor_term, factor[:, terms.factor_option])
+        if pairs is not None and pairs.term.size:
+            # Links that the same calls cross are busy together (docs/estimate.md, step 2).
+            kappa = _pair_correlation(pairs, blocking, link_loads_now, carried * stream_load, caps, sizes)
+            _reduce_at(np.multiply, route_factor, pairs.term, kappa[:, pairs.entry])
         others, whole = _exclusive(survive, terms, n_terms)
         thinned = offered_hop * others * route_factor[:, terms.stream]
-        link_loads = np.bincount(cell, weights=thinned.ravel(), minlength=n_points * n_links * n_sizes)
-        link_loads = np.maximum(link_loads.reshape(n_points, n_links, n_sizes), 0.0)
+        total = n_points * n_links * n_sizes
+
+        def by_cell(values: np.ndarray) -> np.ndarray:
+            sums = np.bincount(cell, weights=values.ravel(), minlength=total)
+            return np.maximum(sums.reshape(n_points, n_links, n_sizes), 0.0)
+
+        if peaked_terms:
+            poisson = by_cell(np.where(terms.peaked[None, :], 0.0, thinned))
+            over = np.where(terms.peaked[None, :], thinned, 0.0)
+            peaked = by_cell(over)
+            # Per (option, link, size): the option's overflow reaching the link is a parcel of
+            # the overflow offered to the option (thinned by the route's other links), so its
+            # peakedness is 1 + p (Z - 1), p the share that reaches the link.
+            mean = _add_at(parcel_index, thinned[:, peaked_at], n_parcels)
+            arriving = refused(carried)[:, parcel_option] * stream_load[:, parcel_option]
+            share = np.divide(mean, arriving, out=np.zeros_like(mean), where=arriving > 0)
+            spread = mean * thinned_peakedness(z_option[:, parcel_option], share)
+            variance = np.stack([np.bincount(parcel_cell, weights=row, minlength=n_links * n_sizes)
+                                 for row in spread]).reshape(n_points, n_links, n_sizes)  # fmt: skip
+            variance = np.maximum(variance, peaked)
+        else:
+            poisson = by_cell(thinned)
+            peaked = variance = np.zeros_like(poisson)
         value = terms.sign[None, :] * whole * route_factor  # (P, T)
         carried_option = _add_at(terms.term_option, value, len(options))
-        return link_loads, np.clip(carried_option, 0.0, 1.0)
+        return poisson, peaked, variance, np.clip(carried_option, 0.0, 1.0)
 
-    blocking, occupancy = link_state(np.zeros((n_points, n_links, n_sizes)))
-    link_loads, carried_option = step(blocking, occupancy, np.zeros((n_points, len(options))))
+    zero = np.zeros((n_points, n_links, n_sizes))
+    blocking, call_blocking, occupancy = link_state(zero, zero, zero, zero)
+    no_overflow = np.ones((n_points, len(options)))
+    link_loads, peaked_loads, variances, carried_option = step(
+        blocking, call_blocking, occupancy, np.zeros((n_points, len(options))), no_overflow, zero)
     iterations, converged, residual, previous, weight = 0, False, 0.0, np.inf, damping
     for iterations in range(1, max_iter + 1):  # noqa: B007 - the count is returned
-        new_blocking, occupancy = link_state(link_loads)
+        new_blocking, call_blocking, occupancy = link_state(link_loads, peaked_loads, variances, call_blocking)
         residual = float(np.abs(new_blocking - blocking).max()) if blocking.size else 0.0
         blocking = new_blocking
-        new_loads, carried_option = step(blocking, occupancy, carried_option)
+        z_option = (option_peakedness(blocking, link_loads + peaked_loads, carried_option) if peaked_terms
+                    else no_overflow)  # fmt: skip
+        new_loads, new_peaked, new_var, carried_option = step(blocking, call_blocking, occupancy, carried_option,
+                                                              z_option, link_loads + peaked_loads)  # fmt: skip
         if residual < tol:
             converged = True
             break
@@ -479,6 +778,8 @@ def routed_fixed_point(
             weight = 1.0 - 0.5 * (1.0 - weight)
         previous = residual
         link_loads = weight * link_loads + (1.0 - weight) * new_loads
+        peaked_loads = weight * peaked_loads + (1.0 - weight) * new_peaked
+        variances = weight * variances + (1.0 - weight) * new_var
     carried = np.zeros((n_points, n_streams, max_options))
     for o, (s, r, _opt) in enumerate(options):
         carried[:, s, r] = carried_option[:, o]
@@ -486,7 +787,7 @@ def routed_fixed_point(
     return RoutedResult(
         sizes=sizes,
         link_blocking=blocking,
-        link_loads=link_loads,
+        link_loads=link_loads + peaked_loads,
         carried=carried,
         stream_blocking=stream_blocking,
         iterations=iterations,

@@ -1,0 +1,29 @@
+"""Exact stationary laws of small continuous-time Markov chains, for tests (no files involved)."""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import sparse
+from scipy.sparse.linalg import spsolve
+
+
+def stationary(states: list, moves) -> np.ndarray:
+    """Stationary distribution of the chain on ``states``; ``moves(s)`` yields (next, rate).
+
+    Solves pi Q = 0 with one balance equation replaced by sum pi = 1 (every state enumerated).
+    """
+    index = {s: i for i, s in enumerate(states)}
+    rows, cols, rates = [], [], []
+    for s in states:
+        for t, rate in moves(s):
+            rows.append(index[s])
+            cols.append(index[t])
+            rates.append(rate)
+    n = len(states)
+    q = sparse.coo_matrix((rates, (rows, cols)), shape=(n, n)).tocsr()
+    q = q - sparse.diags(np.asarray(q.sum(axis=1)).ravel())
+    a = q.T.tolil()
+    a[n - 1, :] = np.ones(n)
+    rhs = np.zeros(n)
+    rhs[-1] = 1.0
+    return spsolve(a.tocsc(), rhs)

@@ -46,6 +46,10 @@ from .reduced_load import RouteOption, _continuity, _option_hops
 
 __all__ = ["GroomedGroup", "GroomedResult", "groomed_fixed_point"]
 
+# Load points solved together hold arrays of about this many values (32 MB of floats): enough
+# to share each step's work among a few points, small beside the machine's memory.
+_BATCH_VALUES = 4_000_000
+
 
 @dataclass(frozen=True)
 class GroomedGroup:
@@ -132,8 +136,8 @@ class _Lookup:
 
     unit_bin: np.ndarray  # flat (cell, ceil(u / g)) bin of each lane state inside ``unit_mask``
     unit_mask: np.ndarray  # (R, U): the state's units do not pass the largest capacity
-    room: np.ndarray  # (1 + K, R, U): C - ceil((u + extra) / g), clipped at 0
-    room_valid: np.ndarray  # (1 + K, R, U): that count is not negative
+    room: np.ndarray  # (1 + K) R U: flat index of C - ceil((u + extra) / g) into the cells'
+    # distribution functions laid end to end with a 0 after each (where that count is negative)
     top: int  # largest capacity
 
 
@@ -147,41 +151,44 @@ def _lookup(cells: _Layout, sizes: np.ndarray, n_lanes: int, top: int) -> _Looku
     flat = (np.arange(cells.lanes.size)[:, None] * (top + 1) + units)[mask]
     extra = np.r_[0, sizes]
     left = cells.capacity[None, :, None] - (-(-(u[None, None, :] + extra[:, None, None]) // cells.lanes[None, :, None]))
-    return _Lookup(flat, mask, np.clip(left, 0, None), left >= 0, top)
+    start = np.arange(cells.lanes.size)[None, :, None] * (top + 2)
+    return _Lookup(flat, mask, np.where(left >= 0, start + left, start + top + 1).ravel(), top)
 
 
 def _links_blocking(law: np.ndarray, cells: _Layout, lookup: _Lookup) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Every link at once: blocking (R, K) of each cell's sizes, the cell's lit-unit law
-    (R, top + 1) and each carrying link's lit-unit law (M, top + 1), normalised.
+    """Every link at once, at A points: blocking (A, R, K) of each cell's sizes, the cell's
+    lit-unit law (A, R, top + 1) and each carrying link's lit-unit law (A, M, top + 1), normalised.
 
-    ``law`` (R, U) is each cell's lane law cut where its units exceed the link's capacity
+    ``law`` (A, R, U) is each cell's lane law cut where its units exceed the link's capacity
     (those states are outside the truncated set).
     """
-    n_cols = lookup.top + 1
+    n_points, n_cells, n_cols = law.shape[0], law.shape[1], lookup.top + 1
     # Law of ceil(U / g) per cell (zero beyond each capacity, as the lane law is).
-    unit_law = np.bincount(lookup.unit_bin, weights=law[lookup.unit_mask], minlength=law.shape[0] * n_cols)
-    unit_law = unit_law.reshape(law.shape[0], n_cols)
+    bins = (np.arange(n_points)[:, None] * (n_cells * n_cols) + lookup.unit_bin[None, :]).ravel()
+    unit_law = np.bincount(bins, weights=law[:, lookup.unit_mask].ravel(), minlength=n_points * n_cells * n_cols)
+    unit_law = unit_law.reshape(n_points, n_cells, n_cols)
     # The links' cells side by side, missing ones as "no unit" (a law at 0, neutral in a product).
-    padded = np.zeros((cells.links.size, cells.width, n_cols))
-    padded[:, :, 0] = 1.0
-    padded[cells.row, cells.slot] = unit_law
-    step = _toeplitz(padded)  # (M, width, n, n)
+    padded = np.zeros((n_points, cells.links.size, cells.width, n_cols))
+    padded[..., 0] = 1.0
+    padded[:, cells.row, cells.slot] = unit_law
+    step = _toeplitz(padded)  # (A, M, width, n, n)
     # Law of the other cells' units on the link: prefix and suffix convolutions.
-    prefix = np.zeros((cells.links.size, cells.width + 1, n_cols, 1))
+    prefix = np.zeros((n_points, cells.links.size, cells.width + 1, n_cols, 1))
     suffix = np.zeros_like(prefix)
-    prefix[:, 0, 0] = suffix[:, cells.width, 0] = 1.0
+    prefix[:, :, 0, 0] = suffix[:, :, cells.width, 0] = 1.0
     for r in range(cells.width):
-        prefix[:, r + 1] = step[:, r] @ prefix[:, r]
+        prefix[:, :, r + 1] = step[:, :, r] @ prefix[:, :, r]
         back = cells.width - 1 - r
-        suffix[:, back] = step[:, back] @ suffix[:, back + 1]
-    others = (_toeplitz(suffix[cells.row, cells.slot + 1, :, 0]) @ prefix[cells.row, cells.slot])[..., 0]
-    cdf = np.cumsum(others, axis=1)  # (R, top + 1): P(others' units <= c)
-    room = np.where(lookup.room_valid, cdf[np.arange(cdf.shape[0])[None, :, None], lookup.room], 0.0)  # (1+K, R, U)
-    mass = (room[0] * law).sum(axis=1)
-    refused = ((room[0][None] - room[1:]) * law[None]).sum(axis=2).T  # (R, K)
-    blocking = np.divide(refused, mass[:, None], out=np.ones_like(refused), where=mass[:, None] > 0)
-    total = prefix[:, cells.width, :, 0] * (np.arange(n_cols)[None, :] <= cells.link_capacity[:, None])
-    sums = total.sum(axis=1, keepdims=True)
+        suffix[:, :, back] = step[:, :, back] @ suffix[:, :, back + 1]
+    others = (_toeplitz(suffix[:, cells.row, cells.slot + 1][..., 0]) @ prefix[:, cells.row, cells.slot])[..., 0]
+    cdf = np.zeros((n_points, n_cells, n_cols + 1))  # P(others' units <= c), then a 0 for c < 0
+    np.cumsum(others, axis=2, out=cdf[..., :n_cols])
+    room = np.take(cdf.reshape(n_points, -1), lookup.room, axis=1).reshape(n_points, -1, *law.shape[1:])
+    mass = (room[:, 0] * law).sum(axis=2)  # (A, R)
+    refused = ((room[:, :1] - room[:, 1:]) * law[:, None]).sum(axis=3).transpose(0, 2, 1)  # (A, R, K)
+    blocking = np.divide(refused, mass[..., None], out=np.ones_like(refused), where=mass[..., None] > 0)
+    total = prefix[:, :, cells.width, :, 0] * (np.arange(n_cols)[None, :] <= cells.link_capacity[:, None])
+    sums = total.sum(axis=2, keepdims=True)
     total = np.divide(total, sums, out=total.copy(), where=sums > 0)
     return np.clip(blocking, 0.0, 1.0), unit_law, total
 
@@ -263,21 +270,23 @@ class _FlatTerms:
                    ints(grp_start), ints(load_term), ints(load_cell), ints(others), ints(other_start))  # fmt: skip
 
     def carried(self, survive: np.ndarray, cont: np.ndarray, offered: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Carried load per pair and size (N, K), and the load each (group, hop) cell is offered
-        given room on its own link (G, H, K), from the survivals (G, H, K), the continuity
-        factors (G, K) and the offered loads (N, K)."""
-        n_groups, max_hops, n_sizes = survive.shape
+        """Carried load per point, pair and size (A, N, K), and the load each (group, hop) cell is
+        offered given room on its own link (A, G, H, K), from the survivals (A, G, H, K), the
+        continuity factors (A, G, K) and the offered loads (A, N, K)."""
+        n_points, n_groups, max_hops, n_sizes = survive.shape
         carried = np.zeros_like(offered)
-        cell_load = np.zeros((n_groups * max_hops, n_sizes))
+        cell_load = np.zeros((n_points, n_groups * max_hops, n_sizes))
         if self.pair.size == 0:
             return carried, cell_load.reshape(survive.shape)
-        values = np.concatenate([survive.reshape(-1, n_sizes), np.ones((1, n_sizes))])
-        scale = (self.sign[:, None] * offered[self.pair]) * np.multiply.reduceat(cont[self.groups], self.group_start,
-                                                                                 axis=0)  # fmt: skip
-        np.add.at(carried, self.pair, scale * np.multiply.reduceat(values[self.cells], self.cell_start, axis=0))
+        every = slice(None)
+        values = np.concatenate([survive.reshape(n_points, -1, n_sizes), np.ones((n_points, 1, n_sizes))], axis=1)
+        scale = (self.sign[None, :, None] * offered[:, self.pair]) * np.multiply.reduceat(
+            cont[:, self.groups], self.group_start, axis=1)  # fmt: skip
+        product = np.multiply.reduceat(values[:, self.cells], self.cell_start, axis=1)
+        np.add.at(carried, (every, self.pair), scale * product)
         if self.load_term.size:
-            given = np.multiply.reduceat(values[self.others], self.other_start, axis=0)
-            np.add.at(cell_load, self.load_cell, scale[self.load_term] * given)
+            given = np.multiply.reduceat(values[:, self.others], self.other_start, axis=1)
+            np.add.at(cell_load, (every, self.load_cell), scale[:, self.load_term] * given)
         return carried, cell_load.reshape(survive.shape)
 
 
@@ -344,57 +353,72 @@ def groomed_fixed_point(
     lookup = _lookup(cells, sizes, u.size, top)
     pair_blocking = np.ones((n_points, n_pairs, n_sizes))
     lit_units = np.zeros((n_points, n_links))
-    iterations, converged = 0, True
+    iterations = 0
 
     def link_state(cell_load: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """Blocking per (group, hop, size), lit-unit law per link, mean units per group and
-        mean lit units per link."""
+        """At A points: blocking per (group, hop, size), lit-unit law per link, mean units per group
+        and mean lit units per link."""
+        n_at = cell_load.shape[0]
         # Every cell's lane law at once, cut where the group's units pass the link's capacity.
-        log_q = _occupancy_log(widths, sizes, cell_load[cells.group, cells.hop])  # (max width + 1, R)
-        masked = np.where(inside, log_q, -np.inf)
+        rows = cell_load[:, cells.group, cells.hop].reshape(-1, n_sizes)  # (A R, K)
+        log_q = _occupancy_log(np.tile(widths, n_at), sizes, rows)  # (max width + 1, A R)
+        masked = np.where(np.tile(inside, (1, n_at)), log_q, -np.inf)
         law = np.exp(masked - masked.max(axis=0)[None, :]).T
         law /= law.sum(axis=1, keepdims=True)
-        blocked, unit_law, total = _links_blocking(law, cells, lookup)
-        blocking = np.zeros((n_groups, max_hops, n_sizes))
-        blocking[cells.group, cells.hop] = blocked
-        occupancy = np.zeros((1, n_links, top + 1))
-        occupancy[0, :, 0] = 1.0
-        occupancy[0, cells.links] = total
-        mean_units = np.zeros(n_groups)
-        mean_units[cells.group] = unit_law @ np.arange(top + 1)
-        lit = np.zeros(n_links)
-        lit[cells.links] = total @ np.arange(top + 1)
+        blocked, unit_law, total = _links_blocking(law.reshape(n_at, cells.group.size, -1), cells, lookup)
+        blocking = np.zeros((n_at, n_groups, max_hops, n_sizes))
+        blocking[:, cells.group, cells.hop] = blocked
+        occupancy = np.zeros((n_at, n_links, top + 1))
+        occupancy[:, :, 0] = 1.0
+        occupancy[:, cells.links] = total
+        mean_units = np.zeros((n_at, n_groups))
+        mean_units[:, cells.group] = unit_law @ np.arange(top + 1)
+        lit = np.zeros((n_at, n_links))
+        lit[:, cells.links] = total @ np.arange(top + 1)
         return blocking, occupancy, mean_units, lit
 
-    def step(blocking: np.ndarray, occupancy: np.ndarray, mean_units: np.ndarray, p: int) -> np.ndarray:
-        """Thinned lane loads per (group, hop, size); sets the pairs' blocking."""
-        aligned = np.repeat(cover @ mean_units, len(needs))[None, :]
-        cont = _continuity(hops, len(options), occupancy, caps, aligned)[0][option_of]  # (G, K)
-        carried, cell_load = flat.carried(1.0 - blocking, cont, offered[p])
-        accepted = np.divide(carried, offered[p], out=np.zeros_like(carried), where=offered[p] > 0)
-        pair_blocking[p] = np.clip(1.0 - accepted, 0.0, 1.0)
+    def step(blocking: np.ndarray, occupancy: np.ndarray, mean_units: np.ndarray, at: np.ndarray) -> np.ndarray:
+        """Thinned lane loads per point ``at``, (group, hop, size); sets those points' pair blocking."""
+        aligned = np.repeat(mean_units @ cover.T, len(needs), axis=1)
+        cont = _continuity(hops, len(options), occupancy, caps, aligned)[:, option_of]  # (A, G, K)
+        carried, cell_load = flat.carried(1.0 - blocking, cont, offered[at])
+        accepted = np.divide(carried, offered[at], out=np.zeros_like(carried), where=offered[at] > 0)
+        pair_blocking[at] = np.clip(1.0 - accepted, 0.0, 1.0)
         return np.maximum(cell_load, 0.0)
 
-    # Every point starts from the same empty links, so that its result does not depend on the others.
-    empty = link_state(np.zeros((n_groups, max_hops, n_sizes)))
-    for p in range(n_points):
-        blocking, occupancy, mean_units, _ = empty
-        cell_load = step(blocking, occupancy, mean_units, p)
-        weight, previous, done = damping, np.inf, False
+    def solve(points: np.ndarray) -> tuple[int, bool]:
+        """Iterate ``points`` together, each with its own damping, until each converges."""
+        blocking = np.repeat(empty[0], points.size, axis=0)
+        cell_load = step(blocking, *(np.repeat(x, points.size, axis=0) for x in empty[1:3]), points)
+        weight, previous = np.full(points.size, damping), np.full(points.size, np.inf)
+        active = np.arange(points.size)  # positions in ``points`` still iterating
         for it in range(1, max_iter + 1):
-            new_blocking, occupancy, mean_units, lit_units[p] = link_state(cell_load)
-            change = float(np.abs(new_blocking - blocking).max()) if blocking.size else 0.0
-            blocking = new_blocking
-            new_load = step(blocking, occupancy, mean_units, p)
-            iterations = max(iterations, it)
-            if change < tol:
-                done = True
-                break
+            at = points[active]
+            new_blocking, occupancy, mean_units, lit_units[at] = link_state(cell_load[active])
+            change = np.abs(new_blocking - blocking[active]).reshape(active.size, -1).max(axis=1, initial=0.0)
+            blocking[active] = new_blocking
+            new_load = step(new_blocking, occupancy, mean_units, at)
+            going = ~(change < tol)  # a NaN change keeps iterating, as a failed test of convergence
             # Damp harder each time a step fails to shrink the change by a tenth (alternate
             # routing makes the plain map oscillate at high load, as in the routed estimate).
-            if it > 1 and change > 0.9 * previous:
-                weight = 1.0 - 0.5 * (1.0 - weight)
-            previous = change
-            cell_load = weight * cell_load + (1.0 - weight) * new_load
-        converged = converged and done
+            harder = going & (change > 0.9 * previous[active]) if it > 1 else np.zeros_like(going)
+            weight[active] = np.where(harder, 1.0 - 0.5 * (1.0 - weight[active]), weight[active])
+            previous[active] = change
+            w = weight[active][:, None, None, None]
+            cell_load[active] = w * cell_load[active] + (1.0 - w) * new_load
+            active = active[going]
+            if active.size == 0:
+                return it, True
+        return max_iter, False
+
+    # Every point starts from the same empty links, so that its result does not depend on the
+    # others.  Points are solved together, as many at once as keep the largest arrays (the room
+    # of every lane state for each size) near _BATCH_VALUES values.
+    empty = link_state(np.zeros((1, n_groups, max_hops, n_sizes)))
+    per_point = max(1, lookup.room.size)
+    batch = max(1, _BATCH_VALUES // per_point)
+    converged = True
+    for first in range(0, n_points, batch):
+        ran, done = solve(np.arange(first, min(n_points, first + batch)))
+        iterations, converged = max(iterations, ran), converged and done
     return GroomedResult(pair_blocking, lit_units, iterations, converged)

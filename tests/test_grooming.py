@@ -20,6 +20,7 @@ import numpy as np
 import pytest
 from markov import stationary
 
+from sdmnet.analysis import grooming
 from sdmnet.analysis.grooming import GroomedGroup, groomed_fixed_point
 from sdmnet.analysis.reduced_load import RouteOption
 
@@ -180,3 +181,29 @@ def test_a_two_hop_pair_with_local_traffic_converges_between_the_bounds():
     b = solved.pair_blocking[0, :, 0]
     assert solved.converged
     assert 0 < b[1] < b[0] < 1 and b[1] == pytest.approx(b[2])
+
+
+def test_load_points_solved_together_or_apart_agree(monkeypatch):
+    # Each point iterates with its own damping and stopping test: solving three points at once,
+    # one at a time (batches of one) or each alone gives the same blocking (to rounding).
+    g = 2
+    groups = [
+        GroomedGroup(0, RouteOption((0, 1), (1, 1), 4, (1, 1)), g),
+        GroomedGroup(0, RouteOption((2,), (1,), 4, (1,)), g),  # the pair's second route
+        GroomedGroup(1, RouteOption((0,), (1,), 4, (1,)), g),
+        GroomedGroup(2, RouteOption((1,), (1,), 4, (1,)), g),
+    ]
+    loads = np.array([[[0.5, 0.2], [1.0, 0.3], [1.0, 0.1]], [[3.0, 1.0], [4.0, 1.0], [2.0, 2.0]],
+                      [[8.0, 2.0], [6.0, 3.0], [9.0, 1.0]]])  # fmt: skip
+    together = groomed_fixed_point([4, 4, 3], groups, [1, 2], loads)
+    alone = [groomed_fixed_point([4, 4, 3], groups, [1, 2], loads[p : p + 1]) for p in range(3)]
+    monkeypatch.setattr(grooming, "_BATCH_VALUES", 1)
+    batched = groomed_fixed_point([4, 4, 3], groups, [1, 2], loads)
+    assert together.converged and batched.converged
+    assert together.iterations == max(a.iterations for a in alone) == batched.iterations
+    for p, a in enumerate(alone):
+        np.testing.assert_allclose(together.pair_blocking[p], a.pair_blocking[0], rtol=0, atol=1e-12)
+        np.testing.assert_allclose(together.lit_units[p], a.lit_units[0], rtol=0, atol=1e-12)
+    np.testing.assert_allclose(batched.pair_blocking, together.pair_blocking, rtol=0, atol=1e-12)
+    assert np.all((together.pair_blocking > 0) & (together.pair_blocking < 1))
+    assert together.pair_blocking[2, 0, 1] > together.pair_blocking[0, 0, 1]  # more load, more blocking

@@ -8,13 +8,15 @@ checked by comparing runs with each other; no outside values are involved.
 from __future__ import annotations
 
 import json
+import os
+import signal
 from dataclasses import replace
 
 import pytest
 from builders import chain, fiber_type, scenario
 
 from sdmnet import api
-from sdmnet.errors import InputError
+from sdmnet.errors import InputError, RunInterrupted
 from sdmnet.inputs.model import Architecture
 from sdmnet.sim.engine import ReplicationRecord
 from sdmnet.sim.sweep import Task, TaskStore, plan_tasks, run_sweep, scenario_fingerprint
@@ -173,3 +175,32 @@ def test_dask_workers_receive_each_prepared_setup_once_not_per_task(tmp_path, mo
     for args in client.submitted:
         assert not any(isinstance(a, EngineSetup) for a in args)
         assert sum(isinstance(a, _Future) for a in args) == 1
+
+
+class _SignalInFinalizer:
+    """Sends SIGINT from its finalizer and lets the handler run there, where Python drops the
+    KeyboardInterrupt it raises ("Exception ignored in ...")."""
+
+    def __del__(self) -> None:
+        os.kill(os.getpid(), signal.SIGINT)
+        for _ in range(10_000):  # the handler runs at one of these steps, inside the finalizer
+            pass
+
+
+@pytest.mark.filterwarnings("ignore::pytest.PytestUnraisableExceptionWarning")  # the dropped one, on purpose
+def test_a_signal_whose_keyboardinterrupt_is_dropped_still_stops_the_sweep(tmp_path):
+    sc = _scenario()
+    store = TaskStore(tmp_path / "tasks", scenario_fingerprint(sc))
+    finished: list[str] = []
+
+    def after_each(task, _record) -> None:
+        finished.append(task.key)
+        if len(finished) == 2:
+            _SignalInFinalizer()  # collected at once: its finalizer runs here
+
+    with pytest.raises(RunInterrupted):
+        run_sweep(sc, store, on_record=after_each)
+    assert len(finished) == 2  # stopped right after the task that saw the signal
+    assert sorted(p.stem for p in store.folder.glob("*.json")) == sorted(finished)
+    # The handlers in place before the sweep are back.
+    assert signal.getsignal(signal.SIGINT) is signal.default_int_handler

@@ -297,20 +297,26 @@ def run_sweep(
     if progress is not None:
         progress.start_at(len(records))
 
-    def _terminate(signum: int, frame: object) -> None:
-        raise KeyboardInterrupt
-
-    old_term = signal.getsignal(signal.SIGTERM)
-    try:
-        signal.signal(signal.SIGTERM, _terminate)
-    except ValueError:  # not the main thread: leave SIGTERM alone
-        old_term = None
     # Routes and physics once per architecture, here; workers receive the setups, not the work.
     setups = prepare_setups(scenario, todo, setups)
     if scheduler:
         results = _dask_results(scenario, todo, setups, fp, scheduler)
     else:
         results = _local_results(scenario, todo, setups, jobs)
+    # The signal is also remembered: Python drops a KeyboardInterrupt raised while a finalizer
+    # runs ("Exception ignored in ..."), and the loop below must stop all the same.
+    signalled: list[int] = []
+
+    def _interrupt(signum: int, frame: object) -> None:
+        signalled.append(signum)
+        raise KeyboardInterrupt
+
+    old_handlers: dict[int, Any] = {}
+    for signum in (signal.SIGINT, signal.SIGTERM):
+        try:
+            old_handlers[signum] = signal.signal(signum, _interrupt)
+        except ValueError:  # not the main thread: leave the signals alone
+            break
     try:
         for task, record in results:
             if store is not None:
@@ -320,12 +326,15 @@ def run_sweep(
                 on_record(task, record)
             if progress is not None:
                 progress.step()
+            if signalled:
+                raise KeyboardInterrupt
     except KeyboardInterrupt:
         raise RunInterrupted(f"interrupted after {len(records)} of {len(tasks)} tasks") from None
     finally:
         results.close()  # stops a worker pool even when the loop body raised
         if progress is not None:
             progress.close()
-        if old_term is not None:
-            signal.signal(signal.SIGTERM, old_term)
+        for signum, handler in old_handlers.items():
+            if handler is not None:  # None: a handler not set from Python, which cannot be put back
+                signal.signal(signum, handler)
     return records

@@ -263,8 +263,10 @@ def _solve_first_route(model: _Model, stream_loads: np.ndarray) -> tuple[np.ndar
     first = [RoutedStream((RouteOption(s.options[0].links, s.options[0].units),), scale)
              for s, scale in zip(model.streams, model.first_route_scale)]  # fmt: skip
     new = model.first_route_new[None, :]
+    # Without alternate routes there is no overflow and no shared-call correction: both switched
+    # off, the same numbers without building what they would need (pairs of links over every route).
     solved = routed_fixed_point(model.capacities, first, stream_loads * new, damping=_DAMPING, tol=_TOL,
-                                max_iter=_MAX_ITER)  # fmt: skip
+                                max_iter=_MAX_ITER, peakedness=False, shared_calls=False)  # fmt: skip
     return solved.stream_blocking * new, solved.iterations, solved.converged
 
 

@@ -170,6 +170,23 @@ def _build_terms(streams: Sequence[RoutedStream], size_of: dict[int, int]) -> tu
                 raise ValueError(f"stream {s} option {r}: links and units do not match or repeat")
             options.append((s, r, opt))
         for r, opt in enumerate(st.options):
+            if r == 0:
+                # The first route has no earlier ones: one term, its own links in order (the
+                # loop below for r = 0, written out: most streams of a large network stop here).
+                t, n_links = len(sign), len(opt.links)
+                sign.append(1.0)
+                t_stream.append(s)
+                t_option.append(first)
+                f_term.append(t)
+                f_option.append(first)
+                stream.extend([t] * n_links)
+                link.extend(opt.links)
+                size_index.extend(size_of[u] for u in opt.units)
+                hop.extend(range(n_links))
+                on_route.extend([True] * n_links)
+                peaked.extend([False] * n_links)
+                hops = max(hops, n_links)
+                continue
             earlier = range(r)
             for n_t in range(r + 1):
                 for subset in combinations(earlier, n_t):
@@ -282,15 +299,14 @@ class _OptionHops:
     pair_of_hop: np.ndarray  # (H,) each hop's pair
 
 
-def _option_hops(options: list) -> _OptionHops:
-    option, link, positions, need, groups = [], [], [], [], {}
-    slots = np.zeros(len(options), dtype=np.int64)
+def _crossing_options(options: list) -> tuple[dict, dict, np.ndarray]:
+    """Per link, the options crossing it and the units each holds there; and each option's links
+    as a bitmask in 64-bit words, so that "crosses all of o's links" is one AND per candidate,
+    for all candidates of a link at once."""
     by_link: dict[int, list[int]] = {}
     for o, (_s, _r, opt) in enumerate(options):
         for ell in opt.links:
             by_link.setdefault(ell, []).append(o)
-    # Each option's links as a bitmask in 64-bit words: "crosses all of o's links" is one AND
-    # per candidate, for all candidates of a link at once.
     words = max((ell for ell in by_link), default=0) // 64 + 1
     masks = np.zeros((len(options), words), dtype=np.uint64)
     for o, (_s, _r, opt) in enumerate(options):
@@ -301,10 +317,18 @@ def _option_hops(options: list) -> _OptionHops:
         ell: np.array([options[q][2].units[options[q][2].links.index(ell)] for q in members], dtype=float)
         for ell, members in by_link.items()
     }
+    return crossing, held_on, masks
+
+
+def _option_hops(options: list) -> _OptionHops:
+    option, link, positions, need, groups = [], [], [], [], {}
+    slots = np.zeros(len(options), dtype=np.int64)
+    ruled = [o for o, (_s, _r, opt) in enumerate(options) if opt.slots > 0 and len(opt.links) >= 2]
+    if ruled:
+        crossing, held_on, masks = _crossing_options(options)
     cover_option, cover_by, cover_units = [], [], []
-    for o, (_s, _r, opt) in enumerate(options):
-        if opt.slots <= 0 or len(opt.links) < 2:
-            continue
+    for o in ruled:
+        opt = options[o][2]
         n = int(max(opt.units))
         slots[o] = opt.slots
         for ell, m in zip(opt.links, opt.positions):
@@ -674,12 +698,13 @@ def routed_fixed_point(
             blocking[:, used, :] = flat_blocking.reshape(n_points, used.size, n_sizes)
             call_blocking = np.zeros_like(blocking)
             call_blocking[:, used, :] = flat_call.reshape(n_points, used.size, n_sizes)
-            j = np.arange(log_q.shape[0])[:, None]
-            masked = np.where(j <= rows_caps[None, :], log_q, -np.inf)
-            peak = masked.max(axis=0)
-            p = np.exp(masked - np.where(np.isfinite(peak), peak, 0.0)[None, :])
-            p /= p.sum(axis=0, keepdims=True)
-            occupancy[:, used, :] = p.T.reshape(n_points, used.size, -1)[:, :, : top + 1]
+            if option_hops.option.size:  # only the continuity factor reads the occupancy
+                j = np.arange(log_q.shape[0])[:, None]
+                masked = np.where(j <= rows_caps[None, :], log_q, -np.inf)
+                peak = masked.max(axis=0)
+                p = np.exp(masked - np.where(np.isfinite(peak), peak, 0.0)[None, :])
+                p /= p.sum(axis=0, keepdims=True)
+                occupancy[:, used, :] = p.T.reshape(n_points, used.size, -1)[:, :, : top + 1]
         else:
             call_blocking = blocking.copy()
         # A call larger than its link never fits (no load reaches it then, so set it here).

@@ -25,6 +25,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 import pandas as pd
@@ -104,7 +105,12 @@ class _Model:
     stream_rate: np.ndarray  # (S,) offered load per Erlang of total load
     stream_gbps: np.ndarray  # (S,) demand size of each stream
     stream_size: np.ndarray  # (S,) size class of each stream
-    streams: list[RoutedStream]  # the routes each stream tries, in order
+    # Per pair and route: units a demand of each size class holds per hop, continuity slots, and
+    # quanta of one unit (the routes' RouteOptions are made from these only when a method reads
+    # them: the plain fixed point needs first routes only; see `streams` and `groups`).
+    pair_units: list[tuple[tuple[int, ...], ...]]
+    pair_slots: list[tuple[tuple[int, tuple[int, ...]], ...]]
+    pair_quanta: list[tuple[int, ...]]
     # Fiber switching with grooming: fiber paths provisioned per pair (docs/model.md, section 3).
     provisioned: bool
     fiber_pairs: list[int]  # per cable
@@ -115,12 +121,36 @@ class _Model:
     # Unit switching with grooming: each pair's routes as groups of lit units, and the quanta
     # (lanes, or fractions of a lane) of a demand of each size class (docs/estimate.md, grooming).
     groomed: bool = False
-    groups: tuple[GroomedGroup, ...] = ()
     # The plain fixed point keeps the old grooming heuristic (cheap on large networks): per
     # stream, the share of demands that light new units and the load scale of those.
     first_route_new: np.ndarray = field(default_factory=lambda: np.ones(0))
     first_route_scale: tuple[float, ...] = ()
     size_lane_counts: tuple[int, ...] = ()
+
+    @cached_property
+    def streams(self) -> list[RoutedStream]:
+        """The routes each stream tries, in order, with the units of its size."""
+        return [
+            RoutedStream(tuple(_option(cables, units[k], slot) for cables, units, slot
+                               in zip(self.pair_routes[n], self.pair_units[n], self.pair_slots[n])))
+            for n, k in zip(self.stream_pair.tolist(), self.stream_size.tolist())
+        ]  # fmt: skip
+
+    def first_routes(self) -> list[RoutedStream]:
+        """Each stream on its first route only, without continuity slots, its load scaled by the
+        grooming heuristic (the plain fixed point)."""
+        out = []
+        for n, k, scale in zip(self.stream_pair.tolist(), self.stream_size.tolist(), self.first_route_scale):
+            cables = self.pair_routes[n][0]
+            out.append(RoutedStream((RouteOption(cables, (self.pair_units[n][0][k],) * len(cables)),), scale))
+        return out
+
+    @cached_property
+    def groups(self) -> tuple[GroomedGroup, ...]:
+        """Each pair's routes as groups of lit units (unit switching with grooming)."""
+        return tuple(GroomedGroup(n, _option(cables, 1, slot), per_unit)
+                     for n, routes in enumerate(self.pair_routes)
+                     for cables, slot, per_unit in zip(routes, self.pair_slots[n], self.pair_quanta[n]))  # fmt: skip
 
 
 def _pair_routes(found: dict[tuple[str, str], list[Route]], a: str, b: str) -> list[Route]:
@@ -142,10 +172,9 @@ def _route_slots(
     return min(geos[c].channels for c in route.cables) * geo.groups_per_fiber, tuple(fibers[c] for c in route.cables)
 
 
-def _option(route: Route, units: int, slots: tuple[int, tuple[int, ...]]) -> RouteOption:
-    """The route with ``units`` per hop and its continuity ``slots`` (:func:`_route_slots`, worked out
-    once per route for all its sizes)."""
-    cables = tuple(route.cables)
+def _option(cables: tuple[int, ...], units: int, slots: tuple[int, tuple[int, ...]]) -> RouteOption:
+    """The route over ``cables`` with ``units`` per hop and its continuity ``slots``
+    (:func:`_route_slots`, worked out once per route for all its sizes)."""
     return RouteOption(cables, (units,) * len(cables), *slots)
 
 
@@ -183,9 +212,8 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
     sizes, probs = size_classes(scenario.traffic)
     found = route_finder(scenario, arch)
     provisioned = bool(geos) and geos[0].whole_fiber and arch.share
-    routed, stream_pair, stream_rate, stream_gbps, stream_size, streams = [], [], [], [], [], []
-    pair_routes, pair_route_lanes, size_lanes = [], [], []
-    lit_groups: list[GroomedGroup] = []
+    routed, stream_pair, stream_rate, stream_gbps, stream_size = [], [], [], [], []
+    pair_routes, pair_route_lanes, size_lanes, pair_units, pair_slots, pair_quanta = [], [], [], [], [], []
     first_route_new: list[float] = []
     first_route_scale: list[float] = []
     mean_load = float(np.mean(scenario.traffic.loads_erlang))
@@ -199,16 +227,16 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
         # A demand fills whole transceiver modules: MIMO groups on randomly coupled fiber.
         groups = [mimo_group([topo.fiber_types[topo.cables[h].fiber_type] for h in r.cables]) for r in routes]
         size_lanes.append([[modules_per_end(float(s), lane, c) * c for s in sizes] for c in groups])
+        pair_units.append(tuple(tuple(units_needed(float(size), geos[r.cables[0]]) for size in sizes)
+                                for r in routes))  # fmt: skip
+        pair_slots.append(tuple(_route_slots(r, geos, fibers, arch.lane_change) for r in routes))
+        pair_quanta.append(tuple(max(1, round(geos[r.cables[0]].unit_gbps / quantum)) for r in routes))
         if not routes:
             continue
         first = geos[routes[0].cables[0]]
-        slots = [_route_slots(r, geos, fibers, arch.lane_change) for r in routes]
         for k, (size, prob) in enumerate(zip(sizes, probs)):
             if prob <= 0:
                 continue
-            options = tuple(
-                _option(r, units_needed(float(size), geos[r.cables[0]]), slot) for r, slot in zip(routes, slots)
-            )
             new, scale = (1.0, 1.0)
             if arch.share and not provisioned:
                 new, scale = _heuristic_grooming(float(size), first.unit_gbps, mean_load * weights[(a, b)])
@@ -218,10 +246,6 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
             stream_rate.append(weights[(a, b)] * prob)
             stream_gbps.append(float(size))
             stream_size.append(k)
-            streams.append(RoutedStream(options))
-        for r, slot in zip(routes, slots):
-            per_unit = max(1, round(geos[r.cables[0]].unit_gbps / quantum))
-            lit_groups.append(GroomedGroup(n, _option(r, 1, slot), per_unit))
     return _Model(
         capacities=capacities,
         pairs=pairs,
@@ -231,7 +255,9 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
         stream_rate=np.array(stream_rate, dtype=float),
         stream_gbps=np.array(stream_gbps, dtype=float),
         stream_size=np.array(stream_size, dtype=np.int64),
-        streams=streams,
+        pair_units=pair_units,
+        pair_slots=pair_slots,
+        pair_quanta=pair_quanta,
         provisioned=provisioned,
         fiber_pairs=fibers,
         pair_routes=pair_routes,
@@ -240,8 +266,7 @@ def _build(scenario: Scenario, arch: Architecture, route_finder: RouteFinder) ->
         size_lanes=size_lanes,
         # Grooming changes nothing when every demand fills whole units (units of one quantum):
         # the routed estimate then holds as it is.
-        groomed=bool(arch.share and not provisioned and any(grp.lanes_per_unit > 1 for grp in lit_groups)),
-        groups=tuple(lit_groups),
+        groomed=bool(arch.share and not provisioned and any(q > 1 for per_route in pair_quanta for q in per_route)),
         first_route_new=np.array(first_route_new, dtype=float),
         first_route_scale=tuple(first_route_scale),
         size_lane_counts=tuple(max(1, math.ceil(float(s) / quantum - 1e-9)) for s in sizes),
@@ -260,8 +285,7 @@ def _solve_first_route(model: _Model, stream_loads: np.ndarray) -> tuple[np.ndar
     continuity rule (the routed fixed point with one option and no slots is exactly that).  Under
     grooming only the demands that light new units are offered, by the uniform-spare heuristic
     (docs/estimate.md)."""
-    first = [RoutedStream((RouteOption(s.options[0].links, s.options[0].units),), scale)
-             for s, scale in zip(model.streams, model.first_route_scale)]  # fmt: skip
+    first = model.first_routes()
     new = model.first_route_new[None, :]
     # Without alternate routes there is no overflow and no shared-call correction: both switched
     # off, the same numbers without building what they would need (pairs of links over every route).
@@ -273,7 +297,7 @@ def _solve_first_route(model: _Model, stream_loads: np.ndarray) -> tuple[np.ndar
 def routed_work(model: _Model, points: int) -> int:
     """Route hops over every stream and every route it tries, times ``points``: what the routed
     estimate's cost grows with (compared with :data:`ROUTED_WORK_LIMIT`)."""
-    return points * sum(len(option.links) for stream in model.streams for option in stream.options)
+    return points * sum(len(cables) for n in model.stream_pair.tolist() for cables in model.pair_routes[n])
 
 
 def groomed_work(model: _Model, points: int) -> int:
@@ -391,7 +415,7 @@ def estimate_architecture(
     blocked = np.where(model.routed[None, :], 0.0, offered)
     blocked_gbps = np.where(model.routed[None, :], 0.0, offered_gbps)
     iterations, converged = 0, True
-    if model.streams:
+    if model.stream_pair.size:
         stream_loads = loads[:, None] * model.stream_rate[None, :]
         if model.provisioned:
             stream_b, iterations, converged = _solve_provisioned(model, loads, stream_loads)

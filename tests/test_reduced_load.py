@@ -16,7 +16,14 @@ import pytest
 from markov import stationary
 
 from sdmnet.analysis.analytic import reduced_load_fixed_point
-from sdmnet.analysis.reduced_load import RoutedStream, RouteOption, routed_fixed_point
+from sdmnet.analysis.reduced_load import (
+    RoutedStream,
+    RouteOption,
+    _build_terms,
+    _exclusive,
+    _hop_layout,
+    routed_fixed_point,
+)
 
 
 def _kaufman_roberts(capacity: int, loads: list[float], sizes: list[int]) -> list[float]:
@@ -208,3 +215,27 @@ def test_a_later_route_sharing_a_link_that_the_same_calls_load(capacity, loads):
                RoutedStream((RouteOption((1,), (1,)),)), RoutedStream((RouteOption((2,), (1,)),))]  # fmt: skip
     new = routed_fixed_point([capacity] * 3, streams, np.array([loads])).stream_blocking[0, 0]
     assert abs(new / exact - 1) < 0.06
+
+
+def test_exclusive_products_are_the_other_links_survival():
+    # Terms of 0 to 5 links (streams of one to three routes over 8 links): per term-link the
+    # product of the term's other links' survival, per term the product of all, against a
+    # plain product per term.
+    rng = np.random.default_rng(7)
+    streams = []
+    for _ in range(40):
+        options = []
+        for _r in range(int(rng.integers(1, 4))):
+            links = tuple(int(x) for x in rng.choice(8, size=int(rng.integers(1, 6)), replace=False))
+            options.append(RouteOption(links, (1,) * len(links)))
+        streams.append(RoutedStream(tuple(options)))
+    terms, _ = _build_terms(streams, {1: 0})
+    n_terms = terms.sign.size
+    survive = rng.random((2, terms.link.size))
+    others, whole = _exclusive(survive, _hop_layout(terms, n_terms), n_terms)
+    for t in range(n_terms):
+        mine = np.flatnonzero(terms.stream == t)
+        assert np.allclose(whole[:, t], survive[:, mine].prod(axis=1), rtol=1e-14, atol=0)
+        for i in mine:
+            rest = mine[mine != i]
+            assert np.allclose(others[:, i], survive[:, rest].prod(axis=1), rtol=1e-14, atol=0)

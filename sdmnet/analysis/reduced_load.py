@@ -244,14 +244,48 @@ def _add_at(index: np.ndarray, values: np.ndarray, size: int) -> np.ndarray:
     return np.stack([np.bincount(index, weights=row, minlength=size) for row in values]).reshape(len(values), size)
 
 
-def _exclusive(survive: np.ndarray, terms: _Terms, n_terms: int) -> tuple[np.ndarray, np.ndarray]:
-    """Per term-link, the product of the term's *other* links' survival; and per term the full product."""
-    n_points = survive.shape[0]
-    grid = np.ones((n_points, n_terms, terms.hops + 2))
-    grid[:, terms.stream, terms.hop + 1] = survive
-    before = np.cumprod(grid, axis=2)
-    after = np.cumprod(grid[:, :, ::-1], axis=2)[:, :, ::-1]
-    return before[:, terms.stream, terms.hop] * after[:, terms.stream, terms.hop + 2], before[:, :, -1]
+@dataclass(frozen=True)
+class _HopLayout:
+    """Where :func:`_exclusive` keeps each term-link: a (hop, term) grid whose columns hold the
+    terms longest first, so that the terms with a link at hop h are the first ``active[h]``
+    columns; flat indices into that grid counted from each term's first link and from its last."""
+
+    forward: np.ndarray  # (I,) hop, column
+    backward: np.ndarray  # (I,) links after it in its term, column
+    end: np.ndarray  # (T,) link count, column of each term
+    active: tuple[int, ...]  # per hop, the columns with a link there
+
+
+def _hop_layout(terms: _Terms, n_terms: int) -> _HopLayout:
+    length = np.bincount(terms.stream, minlength=n_terms)
+    order = np.argsort(-length, kind="stable")
+    column = np.empty(n_terms, dtype=np.int64)
+    column[order] = np.arange(n_terms)
+    at = column[terms.stream]
+    active = tuple(int(n) for n in np.bincount(length, minlength=terms.hops + 1)[::-1].cumsum()[::-1][1:])
+    return _HopLayout(terms.hop * n_terms + at, (length[terms.stream] - 1 - terms.hop) * n_terms + at,
+                      length * n_terms + column, active)  # fmt: skip
+
+
+def _exclusive(survive: np.ndarray, layout: _HopLayout, n_terms: int) -> tuple[np.ndarray, np.ndarray]:
+    """Per term-link, the product of the term's *other* links' survival; and per term the full product.
+
+    The products run from the term's first link on and from its last link back, hop by hop over
+    the terms that reach that hop: the same multiplications, in the same order, as running
+    products over every term padded with ones to the longest, without the padding's work.
+    """
+    n_points, hops = survive.shape[0], len(layout.active)
+    ahead = np.empty((n_points, hops + 1, n_terms))  # ahead[h]: links 0..h-1
+    behind = np.empty((n_points, hops + 1, n_terms))  # behind[h]: the last h links
+    ahead[:, 0] = behind[:, 0] = 1.0
+    step_ahead, step_behind = np.empty((n_points, hops, n_terms)), np.empty((n_points, hops, n_terms))
+    step_ahead.reshape(n_points, hops * n_terms)[:, layout.forward] = survive
+    step_behind.reshape(n_points, hops * n_terms)[:, layout.backward] = survive
+    for h, n in enumerate(layout.active):
+        np.multiply(ahead[:, h, :n], step_ahead[:, h, :n], out=ahead[:, h + 1, :n])
+        np.multiply(behind[:, h, :n], step_behind[:, h, :n], out=behind[:, h + 1, :n])
+    ahead_flat, behind_flat = (x.reshape(n_points, (hops + 1) * n_terms) for x in (ahead, behind))
+    return ahead_flat[:, layout.forward] * behind_flat[:, layout.backward], ahead_flat[:, layout.end]
 
 
 def _sum_at_least(pmf: np.ndarray, copies: np.ndarray, need: int) -> np.ndarray:
@@ -622,6 +656,7 @@ def routed_fixed_point(
     size_of = {int(u): k for k, u in enumerate(unit_counts)}
     terms, options = _build_terms(streams, size_of)
     option_hops = _option_hops(options)
+    layout = _hop_layout(terms, terms.sign.size)
     n_points, n_streams = load_matrix.shape
     n_links, n_sizes, n_terms = caps.size, sizes.size, terms.sign.size
     max_options = max((len(st.options) for st in streams), default=0)
@@ -751,7 +786,7 @@ def routed_fixed_point(
             # Links that the same calls cross are busy together (docs/estimate.md, step 2).
             kappa = _pair_correlation(pairs, blocking, link_loads_now, carried * stream_load, caps, sizes)
             _reduce_at(np.multiply, route_factor, pairs.term, kappa[:, pairs.entry])
-        others, whole = _exclusive(survive, terms, n_terms)
+        others, whole = _exclusive(survive, layout, n_terms)
         thinned = offered_hop * others * route_factor[:, terms.stream]
         total = n_points * n_links * n_sizes
 

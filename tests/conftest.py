@@ -1,7 +1,9 @@
 import os
+import signal
 import sys
 from pathlib import Path
 
+import pytest
 from hypothesis import settings
 
 # Test helpers (tests/builders.py) are imported as a plain module.
@@ -15,3 +17,12 @@ sys.path.insert(0, str(Path(__file__).parent))
 settings.register_profile("ci", derandomize=True, database=None, deadline=None, print_blob=True)
 settings.register_profile("long", max_examples=1000, deadline=None, print_blob=True)
 settings.load_profile(os.environ.get("SDMNET_HYPOTHESIS", "ci"))
+
+
+@pytest.fixture
+def sigint_raises():
+    """SIGINT raises KeyboardInterrupt during the test, as in a foreground run, even when pytest
+    itself was started with SIGINT ignored (a background job of a shell without job control)."""
+    before = signal.signal(signal.SIGINT, signal.default_int_handler)
+    yield
+    signal.signal(signal.SIGINT, before)

@@ -137,7 +137,7 @@ def test_simulate_estimate_paths_write_their_files(tmp_path):
 
 
 @pytest.mark.parametrize("signum", [signal.SIGINT, signal.SIGTERM])
-def test_interrupted_then_resumed_sweep_equals_uninterrupted(tmp_path, signum, monkeypatch, capsys):
+def test_interrupted_then_resumed_sweep_equals_uninterrupted(tmp_path, signum, monkeypatch, capsys, sigint_raises):
     # The signal is sent from inside the sweep, right after the third task file is saved, while
     # the two workers still have tasks: the same point of interruption on any machine.
     scen = _scenario(tmp_path, requests=2000, replications=6)

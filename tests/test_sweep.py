@@ -188,7 +188,7 @@ class _SignalInFinalizer:
 
 
 @pytest.mark.filterwarnings("ignore::pytest.PytestUnraisableExceptionWarning")  # the dropped one, on purpose
-def test_a_signal_whose_keyboardinterrupt_is_dropped_still_stops_the_sweep(tmp_path):
+def test_a_signal_whose_keyboardinterrupt_is_dropped_still_stops_the_sweep(tmp_path, sigint_raises):
     sc = _scenario()
     store = TaskStore(tmp_path / "tasks", scenario_fingerprint(sc))
     finished: list[str] = []
@@ -204,3 +204,23 @@ def test_a_signal_whose_keyboardinterrupt_is_dropped_still_stops_the_sweep(tmp_p
     assert sorted(p.stem for p in store.folder.glob("*.json")) == sorted(finished)
     # The handlers in place before the sweep are back.
     assert signal.getsignal(signal.SIGINT) is signal.default_int_handler
+
+
+def test_a_sweep_started_with_sigint_ignored_keeps_it_ignored(tmp_path):
+    # A background job of a shell without job control starts with SIGINT ignored (POSIX); the
+    # sweep must not make it interruptible by the terminal's Ctrl-C.
+    sc = _scenario()
+    before = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        finished: list[str] = []
+
+        def after_each(task, _record) -> None:
+            finished.append(task.key)
+            if len(finished) == 2:
+                os.kill(os.getpid(), signal.SIGINT)
+
+        records = run_sweep(sc, None, on_record=after_each)
+        assert len(records) == len(plan_tasks(sc)) == len(finished)
+        assert signal.getsignal(signal.SIGINT) == signal.SIG_IGN
+    finally:
+        signal.signal(signal.SIGINT, before)

@@ -313,6 +313,8 @@ def run_sweep(
 
     old_handlers: dict[int, Any] = {}
     for signum in (signal.SIGINT, signal.SIGTERM):
+        if signum == signal.SIGINT and signal.getsignal(signum) == signal.SIG_IGN:
+            continue  # started with SIGINT ignored (a background job): keep it so
         try:
             old_handlers[signum] = signal.signal(signum, _interrupt)
         except ValueError:  # not the main thread: leave the signals alone

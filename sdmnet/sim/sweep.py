@@ -24,6 +24,7 @@ import os
 import signal
 import sys
 from collections.abc import Callable, Iterable, Iterator, Mapping
+from contextlib import contextmanager
 from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
@@ -303,40 +304,53 @@ def run_sweep(
         results = _dask_results(scenario, todo, setups, fp, scheduler)
     else:
         results = _local_results(scenario, todo, setups, jobs)
-    # The signal is also remembered: Python drops a KeyboardInterrupt raised while a finalizer
-    # runs ("Exception ignored in ..."), and the loop below must stop all the same.
+    with _stop_on_signals() as signalled:
+        try:
+            for task, record in results:
+                if store is not None:
+                    store.save(task, record)
+                records[task.key] = record
+                if on_record is not None:
+                    on_record(task, record)
+                if progress is not None:
+                    progress.step()
+                if signalled:
+                    raise KeyboardInterrupt
+        except KeyboardInterrupt:
+            raise RunInterrupted(f"interrupted after {len(records)} of {len(tasks)} tasks") from None
+        finally:
+            results.close()  # stops a worker pool even when the loop body raised
+            if progress is not None:
+                progress.close()
+    return records
+
+
+@contextmanager
+def _stop_on_signals() -> Iterator[list[int]]:
+    """SIGINT and SIGTERM raise KeyboardInterrupt inside the block and are also listed in what it
+    yields: Python drops a KeyboardInterrupt raised while a finalizer runs ("Exception ignored
+    in ..."), and the caller must stop all the same.  The handlers before are put back after.
+
+    SIGINT stays ignored when the process started with it ignored (a background job of a shell
+    without job control), and nothing changes outside the main thread (signals are not allowed).
+    """
     signalled: list[int] = []
 
     def _interrupt(signum: int, frame: object) -> None:
         signalled.append(signum)
         raise KeyboardInterrupt
 
-    old_handlers: dict[int, Any] = {}
+    before: dict[int, Any] = {}
     for signum in (signal.SIGINT, signal.SIGTERM):
         if signum == signal.SIGINT and signal.getsignal(signum) == signal.SIG_IGN:
-            continue  # started with SIGINT ignored (a background job): keep it so
+            continue
         try:
-            old_handlers[signum] = signal.signal(signum, _interrupt)
-        except ValueError:  # not the main thread: leave the signals alone
+            before[signum] = signal.signal(signum, _interrupt)
+        except ValueError:  # not the main thread
             break
     try:
-        for task, record in results:
-            if store is not None:
-                store.save(task, record)
-            records[task.key] = record
-            if on_record is not None:
-                on_record(task, record)
-            if progress is not None:
-                progress.step()
-            if signalled:
-                raise KeyboardInterrupt
-    except KeyboardInterrupt:
-        raise RunInterrupted(f"interrupted after {len(records)} of {len(tasks)} tasks") from None
+        yield signalled
     finally:
-        results.close()  # stops a worker pool even when the loop body raised
-        if progress is not None:
-            progress.close()
-        for signum, handler in old_handlers.items():
+        for signum, handler in before.items():
             if handler is not None:  # None: a handler not set from Python, which cannot be put back
                 signal.signal(signum, handler)
-    return records

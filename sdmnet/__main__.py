@@ -1,7 +1,5 @@
 """python -m sdmnet"""
 
-import sys
+from sdmnet.cli import run
 
-from sdmnet.cli import main
-
-sys.exit(main())
+run()

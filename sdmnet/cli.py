@@ -7,14 +7,20 @@ Exit status: 0 done; 2 bad input (one line ``error: FILE: WHERE: what is wrong``
 from __future__ import annotations
 
 import argparse
+import atexit
+import gc
+import importlib
+import os
 import sys
+import threading
 from collections.abc import Callable, Sequence
 from pathlib import Path
+from types import ModuleType
 
 from . import __version__
 from .errors import InputError, RunInterrupted
 
-__all__ = ["main", "build_parser"]
+__all__ = ["main", "run", "build_parser"]
 
 EXIT_OK, EXIT_INPUT, EXIT_INTERRUPTED = 0, 2, 130
 
@@ -103,9 +109,35 @@ def cmd_check(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+#: True in the command's own process (set by :func:`run`), where :func:`main` runs once.
+_ONE_COMMAND = False
+
+
+def _api(drawing: bool = True) -> ModuleType:
+    """:mod:`sdmnet.api`, imported with the report's modules too when the verb draws figures.
+
+    In the command's own process (:func:`run`) they are imported with the cyclic garbage collector
+    paused, and what they made is then frozen (``gc.freeze``): the imports make a few hundred
+    thousand objects that live until the process ends, yet each full collection would walk them
+    all again (about 0.1 s of a small run).  Not where :func:`main` is called more than once (the
+    tests), since freezing would keep earlier calls' garbage cycles for good.
+    """
+    names = ["sdmnet.api"] + (["sdmnet.output.report"] if drawing else [])
+    if not _ONE_COMMAND or all(name in sys.modules for name in names):
+        return importlib.import_module("sdmnet.api")
+    gc.disable()
+    try:
+        for name in names:
+            importlib.import_module(name)
+    finally:
+        gc.freeze()
+        gc.enable()
+    return sys.modules["sdmnet.api"]
+
+
 def cmd_simulate(args: argparse.Namespace) -> int:
     scenario = _load_scenario(args)  # first: a bad file is refused before the heavier imports
-    from . import api
+    api = _api()
 
     result = api.simulate(
         scenario,
@@ -162,7 +194,7 @@ def _warn_unsteady(summary) -> None:
 
 def cmd_estimate(args: argparse.Namespace) -> int:
     scenario = _load_scenario(args)
-    from . import api
+    api = _api(drawing=False)
 
     out = _out(args, "estimate")
     network, _pairs = api.estimate(scenario, out, memory_limit=args.memory_limit, method=args.method)
@@ -174,7 +206,7 @@ def cmd_estimate(args: argparse.Namespace) -> int:
 
 def cmd_paths(args: argparse.Namespace) -> int:
     scenario = _load_scenario(args)
-    from . import api
+    api = _api(drawing=False)
 
     out = _out(args, "paths")
     table = api.paths(scenario, out, memory_limit=args.memory_limit)
@@ -189,7 +221,7 @@ def cmd_paths(args: argparse.Namespace) -> int:
 
 def cmd_plan_or_forecast(args: argparse.Namespace) -> int:
     scenario = _load_scenario(args)
-    from . import api
+    api = _api()
 
     out = _out(args, args.verb)
     limit = args.memory_limit
@@ -209,7 +241,7 @@ def cmd_plan_or_forecast(args: argparse.Namespace) -> int:
 
 
 def cmd_report(args: argparse.Namespace) -> int:
-    from . import api
+    api = _api()
 
     path = api.report(Path(args.folder), Path(args.out) if args.out else None)
     print(f"report in {path}")
@@ -217,7 +249,7 @@ def cmd_report(args: argparse.Namespace) -> int:
 
 
 def cmd_demo(args: argparse.Namespace) -> int:
-    from . import api
+    api = _api()
     from .inputs.bundled import bundled_scenario
     from .inputs.loaders import load_scenario
 
@@ -239,7 +271,7 @@ def cmd_demo(args: argparse.Namespace) -> int:
 
 
 def cmd_starter(args: argparse.Namespace) -> int:
-    from . import api
+    api = _api(drawing=False)
 
     scenario, topology = api.starter(Path(args.folder))
     print(f"wrote {scenario} and {topology}; edit them, then: sdmnet check {scenario}")
@@ -362,5 +394,30 @@ def main(argv: Sequence[str] | None = None) -> int:
         return EXIT_INTERRUPTED
 
 
+def run() -> None:
+    """The installed ``sdmnet`` command: :func:`main`, then leave without tearing the interpreter down.
+
+    Freeing every object of numpy, pandas and matplotlib one by one at exit takes about 0.2 s,
+    longer than a small command's own work, and serves nothing: every file is written and closed
+    by then.  So once the output is flushed and the exit handlers have run, the process ends at
+    once with ``main``'s status.  When anything could still need the normal exit (a thread still
+    running, output that cannot be flushed), it takes the normal exit.
+    """
+    global _ONE_COMMAND
+    _ONE_COMMAND = True
+    status = main()
+    others = [t for t in threading.enumerate() if t is not threading.main_thread() and not t.daemon]
+    if not others:
+        try:
+            sys.stdout.flush()
+            sys.stderr.flush()
+        except (OSError, ValueError):  # a closed pipe or stream: let the normal exit report it
+            pass
+        else:
+            atexit._run_exitfuncs()  # what the normal exit runs first (temporary folders, logging)
+            os._exit(status)
+    sys.exit(status)
+
+
 if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
+    run()

@@ -253,3 +253,36 @@ def test_an_unknown_estimate_in_the_scenario_names_the_choices(tmp_path):
     assert proc.returncode == 2
     line = proc.stderr.strip()
     assert line.startswith(f"error: {scen}: run.estimate:") and "'routed'" in line
+
+
+def _command(tmp_path: Path, before: str, *args: str) -> subprocess.CompletedProcess:
+    """The installed command's entry point (:func:`sdmnet.cli.run`) in a fresh process, after ``before``."""
+    code = f"import sys\nsys.argv = ['sdmnet', *{list(args)!r}]\n{before}\nfrom sdmnet.cli import run\nrun()\n"
+    return subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=tmp_path)
+
+
+def test_the_command_ends_with_mains_status_its_output_and_exit_handlers(tmp_path, capsys):
+    # run() ends the process without tearing the interpreter down: nothing printed may be lost,
+    # the status must be main's, and exit handlers registered by anyone must still run.
+    scenario = _scenario(tmp_path)
+    assert main(["check", str(scenario)]) == 0
+    expected = capsys.readouterr().out
+    handler = "import atexit\natexit.register(lambda: open('handler-ran', 'w').close())"
+    done = _command(tmp_path, handler, "check", str(scenario))
+    assert done.returncode == 0
+    assert done.stdout == expected
+    assert (tmp_path / "handler-ran").exists()
+    bad = _command(tmp_path, "", "check", str(tmp_path / "missing.toml"))
+    assert bad.returncode == 2
+    assert bad.stderr.startswith(f"error: {tmp_path / 'missing.toml'}")
+
+
+def test_the_command_waits_for_a_thread_still_running(tmp_path):
+    # A thread that is not a daemon still has work to do: the normal exit waits for it.
+    thread = (
+        "import threading, time\n"
+        "threading.Thread(target=lambda: (time.sleep(0.3), print('thread done', flush=True))).start()"
+    )
+    done = _command(tmp_path, thread, "check", str(_scenario(tmp_path)))
+    assert done.returncode == 0
+    assert done.stdout.splitlines()[-1] == "thread done"

@@ -6,12 +6,23 @@ import math
 from collections.abc import Sequence
 from pathlib import Path
 
-import matplotlib.pyplot as plt
 import numpy as np
 import pandas as pd
+from matplotlib.axes import Axes
 from matplotlib.lines import Line2D
 
-from .look import INK, apply_look, architectures_in, footnote, log_axis, save_figure, style_for, suptitle, with_look
+from .look import (
+    INK,
+    apply_look,
+    architectures_in,
+    footnote,
+    log_axis,
+    new_figure,
+    save_figure,
+    style_for,
+    suptitle,
+    with_look,
+)
 
 __all__ = ["blocking_figure", "estimate_figure"]
 
@@ -31,7 +42,7 @@ def _dodge_step(loads: pd.Series, series: int) -> float:
 
 
 def _draw_blocking(
-    ax: plt.Axes, frame: pd.DataFrame, column: str, floor: float, order: list[str], lines: bool = True
+    ax: Axes, frame: pd.DataFrame, column: str, floor: float, order: list[str], lines: bool = True
 ) -> tuple[bool, bool]:
     """Points, intervals and (with ``lines``) lines of ``column`` per architecture.
 
@@ -81,7 +92,7 @@ def _draw_blocking(
     return any_zero, step > 0
 
 
-def _blocking_axes(ax: plt.Axes, column: str) -> str:
+def _blocking_axes(ax: Axes, column: str) -> str:
     """Log blocking axis against offered load, labelled for ``column``; returns the title's noun."""
     request = column == "blocking"
     log_axis(ax.yaxis)
@@ -115,7 +126,7 @@ def blocking_figure(
         Figure title.
     """
     order = architectures_in(summary)
-    fig, ax = plt.subplots(figsize=(7.2, 4.4), layout="constrained")
+    fig, ax = new_figure(figsize=(7.2, 4.4), layout="constrained")
     values = list(summary[column]) + [
         v for c in (f"{column}_ci_low", f"{column}_ci_high") if c in summary.columns for v in summary[c]
     ]
@@ -149,7 +160,7 @@ def estimate_figure(estimate: pd.DataFrame, summary: pd.DataFrame | None, path: 
     order = list(
         dict.fromkeys(architectures_in(estimate) + ([] if summary is None else architectures_in(summary)))
     )
-    fig, axes = plt.subplots(1, len(columns), figsize=(5.4 * len(columns) + 2.0, 4.2), squeeze=False,
+    fig, axes = new_figure(1, len(columns), figsize=(5.4 * len(columns) + 2.0, 4.2), squeeze=False,
                              layout="constrained")  # fmt: skip
     any_zero = any_dodge = False
     floors = []

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 from pathlib import Path
 
-import matplotlib.pyplot as plt
 import numpy as np
 import pandas as pd
+from matplotlib.axes import Axes
 from matplotlib.ticker import MaxNLocator
 
 from .look import (
@@ -15,6 +15,7 @@ from .look import (
     architectures_in,
     bar_style_for,
     fmt_number,
+    new_figure,
     save_figure,
     style_for,
     suptitle,
@@ -35,7 +36,7 @@ def _at_highest_load(summary: pd.DataFrame) -> tuple[pd.DataFrame, str]:
     return top, when
 
 
-def _bar_labels(ax: plt.Axes, bars, fmt: str = "{:,.0f}") -> None:
+def _bar_labels(ax: Axes, bars, fmt: str = "{:,.0f}") -> None:
     ax.bar_label(bars, labels=[fmt.format(b.get_height()) for b in bars], padding=2, fontsize=7, color=INK)
 
 
@@ -50,7 +51,7 @@ def resources_figure(summary: pd.DataFrame, path: Path) -> Path:
     top, when = _at_highest_load(summary)
     names = [str(a) for a in top["architecture"]]
     x = np.arange(len(names))
-    fig, axes = plt.subplots(1, 3, figsize=(11.0, 3.9), gridspec_kw={"width_ratios": [1.5, 1, 1]},
+    fig, axes = new_figure(1, 3, figsize=(11.0, 3.9), gridspec_kw={"width_ratios": [1.5, 1, 1]},
                              layout="constrained")  # fmt: skip
     ax = axes[0]
     width = 0.38
@@ -154,7 +155,7 @@ def forecast_figure(totals: pd.DataFrame, path: Path, band: pd.DataFrame | None 
     ]
     panels = [w for w in wanted if w[0] in totals.columns]
     order = architectures_in(totals)
-    fig, axes = plt.subplots(1, len(panels), figsize=(3.8 * len(panels), 4.0), squeeze=False, layout="constrained")
+    fig, axes = new_figure(1, len(panels), figsize=(3.8 * len(panels), 4.0), squeeze=False, layout="constrained")
     for ax, (column, label, title) in zip(axes[0], panels):
         for i, name in enumerate(order):
             part = totals[totals["architecture"].astype(str) == name].sort_values("year", kind="stable")
@@ -179,7 +180,7 @@ def plan_figure(plan: pd.DataFrame, path: Path) -> Path:
     order = architectures_in(plan)
     cables = list(dict.fromkeys(str(c) for c in plan["cable"]))
     height = 0.8 / max(len(order), 1)
-    fig, ax = plt.subplots(
+    fig, ax = new_figure(
         figsize=(7.2, 1.2 + 0.22 * len(cables) * max(len(order), 1) ** 0.5 + 0.3 * len(cables)), layout="constrained"
     )
     y = np.arange(len(cables))

@@ -5,11 +5,10 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
-import matplotlib.pyplot as plt
 import numpy as np
 import pandas as pd
 
-from .look import apply_look, architectures_in, footnote, save_figure, style_for, suptitle, with_look
+from .look import apply_look, architectures_in, footnote, new_figure, save_figure, style_for, suptitle, with_look
 
 __all__ = ["gsnr_figure"]
 
@@ -33,7 +32,7 @@ def gsnr_figure(paths: pd.DataFrame, path: Path) -> Path:
     columns = min(3, max(1, len(names)))
     lines = math.ceil(len(names) / columns)
     size = (3.7 * columns + 1.6, 3.0 * lines + 0.6)  # + the legend on the right, title and note
-    fig, axes = plt.subplots(lines, columns, figsize=size, sharex=True, sharey=True, squeeze=False,
+    fig, axes = new_figure(lines, columns, figsize=size, sharex=True, sharey=True, squeeze=False,
                              layout="constrained")  # fmt: skip
     feasible = _is_true(rows["feasible"]) if "feasible" in rows.columns else pd.Series(True, index=rows.index)
     classes = rows["transceiver_class"].astype(str) if "transceiver_class" in rows.columns else None

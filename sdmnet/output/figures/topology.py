@@ -7,14 +7,25 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
-import matplotlib.pyplot as plt
 import numpy as np
 import pandas as pd
+from matplotlib.axes import Axes
+from matplotlib.cm import ScalarMappable
 from matplotlib.colors import Normalize
 from matplotlib.lines import Line2D
 from matplotlib.ticker import PercentFormatter
 
-from .look import INK, UTILISATION_CMAP, apply_look, architectures_in, fmt_number, save_figure, suptitle, with_look
+from .look import (
+    INK,
+    UTILISATION_CMAP,
+    apply_look,
+    architectures_in,
+    fmt_number,
+    new_figure,
+    save_figure,
+    suptitle,
+    with_look,
+)
 
 __all__ = ["topology_figure"]
 
@@ -100,7 +111,7 @@ def _spot_boxes(label: Any, point: np.ndarray, scale: float, renderer: Any) -> n
     return np.array(boxes)
 
 
-def _place_site_labels(ax: plt.Axes, pos: dict[str, tuple[float, float]], segments: list) -> None:
+def _place_site_labels(ax: Axes, pos: dict[str, tuple[float, float]], segments: list) -> None:
     """Label every site at the spot around it that covers the fewest labels, sites and cables.
 
     Greedy, crowded sites first: each candidate box is scored by the area it shares with labels
@@ -193,7 +204,7 @@ def topology_figure(
     nrows = math.ceil(len(order) / ncols)
     panel_w = 6.4 if wide else 4.6
     panel_h = min(max((panel_w - 0.9) * shape, 1.8), 6.0) + 1.0  # + title and axis label
-    fig, axes = plt.subplots(
+    fig, axes = new_figure(
         nrows,
         ncols,
         figsize=(panel_w * ncols + 1.0, panel_h * nrows + 1.0),
@@ -287,7 +298,7 @@ def topology_figure(
         suptitle(fig, "Network: installed fiber pairs per cable")
     fig.legend(handles=handles, loc="outside lower center", ncols=len(handles))
     if by_utilisation:
-        mappable = plt.cm.ScalarMappable(norm=norm, cmap=UTILISATION_CMAP)
+        mappable = ScalarMappable(norm=norm, cmap=UTILISATION_CMAP)
         bar = fig.colorbar(
             mappable, ax=axes, fraction=0.03, pad=0.02, shrink=0.85 if nrows == 1 else 0.6, aspect=25
         )

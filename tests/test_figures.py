@@ -236,27 +236,29 @@ def test_site_labels_of_a_crowded_cluster_do_not_cover_each_other():
 @pytest.mark.parametrize("name", sorted(DRAWINGS))
 def test_everything_drawn_lies_inside_the_figure(name: str, tmp_path: Path, monkeypatch) -> None:
     # Figures are saved at their own size (no "tight" bounding box), so a legend, label or note
-    # outside the figure would be cut off the PNG.
-    from matplotlib.figure import Figure
+    # outside the figure would be cut off the PNG.  Measured when the PNG is painted.
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
 
-    saved = []
-    original = Figure.savefig
+    painted = []
+    original = FigureCanvasAgg.draw
 
-    def measure_then_save(fig, *args, **kwargs):
+    def measure_then_draw(canvas):
+        fig = canvas.figure
+        assert fig.get_layout_engine() is None, "laid out before painting, not while"
+        monkeypatch.setattr(FigureCanvasAgg, "draw", original)  # matplotlib's measures may draw too
         fig.draw_without_rendering()
         box = fig.get_tightbbox()  # inches
         width, height = fig.get_size_inches()
-        saved.append((box.x0, box.y0, box.x1 - width, box.y1 - height))
-        assert "bbox_inches" not in kwargs
-        return original(fig, *args, **kwargs)
+        painted.append((box.x0, box.y0, box.x1 - width, box.y1 - height))
+        return original(canvas)
 
-    monkeypatch.setattr(Figure, "savefig", measure_then_save)
+    monkeypatch.setattr(FigureCanvasAgg, "draw", measure_then_draw)
     DRAWINGS[name](tmp_path / "fig.png")
-    assert len(saved) == 1
+    assert len(painted) == 1
     slack = 0.01  # inches: anti-aliasing of an edge
-    left, bottom, right_over, top_over = saved[0]
-    assert left >= -slack and bottom >= -slack, f"drawn left of or below the figure: {saved[0]}"
-    assert right_over <= slack and top_over <= slack, f"drawn right of or above the figure: {saved[0]}"
+    left, bottom, right_over, top_over = painted[0]
+    assert left >= -slack and bottom >= -slack, f"drawn left of or below the figure: {painted[0]}"
+    assert right_over <= slack and top_over <= slack, f"drawn right of or above the figure: {painted[0]}"
 
 
 def test_log_tick_labels_are_plain_text_powers_of_ten() -> None:

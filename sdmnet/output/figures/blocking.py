@@ -126,7 +126,7 @@ def blocking_figure(
         Figure title.
     """
     order = architectures_in(summary)
-    fig, ax = new_figure(figsize=(7.2, 4.4), layout="constrained")
+    fig, ax = new_figure(figsize=(7.2, 4.4))
     values = list(summary[column]) + [
         v for c in (f"{column}_ci_low", f"{column}_ci_high") if c in summary.columns for v in summary[c]
     ]
@@ -160,8 +160,7 @@ def estimate_figure(estimate: pd.DataFrame, summary: pd.DataFrame | None, path: 
     order = list(
         dict.fromkeys(architectures_in(estimate) + ([] if summary is None else architectures_in(summary)))
     )
-    fig, axes = new_figure(1, len(columns), figsize=(5.4 * len(columns) + 2.0, 4.2), squeeze=False,
-                             layout="constrained")  # fmt: skip
+    fig, axes = new_figure(1, len(columns), figsize=(5.4 * len(columns) + 2.0, 4.2), squeeze=False)
     any_zero = any_dodge = False
     floors = []
     for ax, column in zip(axes[0], columns):

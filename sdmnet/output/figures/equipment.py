@@ -51,8 +51,7 @@ def resources_figure(summary: pd.DataFrame, path: Path) -> Path:
     top, when = _at_highest_load(summary)
     names = [str(a) for a in top["architecture"]]
     x = np.arange(len(names))
-    fig, axes = new_figure(1, 3, figsize=(11.0, 3.9), gridspec_kw={"width_ratios": [1.5, 1, 1]},
-                             layout="constrained")  # fmt: skip
+    fig, axes = new_figure(1, 3, figsize=(11.0, 3.9), gridspec_kw={"width_ratios": [1.5, 1, 1]})
     ax = axes[0]
     width = 0.38
     if "transceiver_lanes_installed" in top.columns:
@@ -155,7 +154,7 @@ def forecast_figure(totals: pd.DataFrame, path: Path, band: pd.DataFrame | None 
     ]
     panels = [w for w in wanted if w[0] in totals.columns]
     order = architectures_in(totals)
-    fig, axes = new_figure(1, len(panels), figsize=(3.8 * len(panels), 4.0), squeeze=False, layout="constrained")
+    fig, axes = new_figure(1, len(panels), figsize=(3.8 * len(panels), 4.0), squeeze=False)
     for ax, (column, label, title) in zip(axes[0], panels):
         for i, name in enumerate(order):
             part = totals[totals["architecture"].astype(str) == name].sort_values("year", kind="stable")
@@ -181,7 +180,7 @@ def plan_figure(plan: pd.DataFrame, path: Path) -> Path:
     cables = list(dict.fromkeys(str(c) for c in plan["cable"]))
     height = 0.8 / max(len(order), 1)
     fig, ax = new_figure(
-        figsize=(7.2, 1.2 + 0.22 * len(cables) * max(len(order), 1) ** 0.5 + 0.3 * len(cables)), layout="constrained"
+        figsize=(7.2, 1.2 + 0.22 * len(cables) * max(len(order), 1) ** 0.5 + 0.3 * len(cables))
     )
     y = np.arange(len(cables))
     for i, name in enumerate(order):

@@ -32,8 +32,7 @@ def gsnr_figure(paths: pd.DataFrame, path: Path) -> Path:
     columns = min(3, max(1, len(names)))
     lines = math.ceil(len(names) / columns)
     size = (3.7 * columns + 1.6, 3.0 * lines + 0.6)  # + the legend on the right, title and note
-    fig, axes = new_figure(lines, columns, figsize=size, sharex=True, sharey=True, squeeze=False,
-                             layout="constrained")  # fmt: skip
+    fig, axes = new_figure(lines, columns, figsize=size, sharex=True, sharey=True, squeeze=False)
     feasible = _is_true(rows["feasible"]) if "feasible" in rows.columns else pd.Series(True, index=rows.index)
     classes = rows["transceiver_class"].astype(str) if "transceiver_class" in rows.columns else None
     kinds = list(dict.fromkeys(classes)) if classes is not None else [""]

@@ -209,7 +209,7 @@ def topology_figure(
         ncols,
         figsize=(panel_w * ncols + 1.0, panel_h * nrows + 1.0),
         squeeze=False,
-        layout="constrained",
+        measure_twice=True,  # a colour bar: see MeasuredOnceLayout
     )
     norm = Normalize(0.0, 1.0)
     max_pairs = max([int(c.get("fiber_pairs", 1)) for c in cables] + [1])

@@ -203,6 +203,37 @@ def test_report_regenerates_byte_identical_in_another_process(
     assert not differing, f"differ between processes: {differing}"
 
 
+def test_the_shipped_compiled_template_is_the_templates_own(tmp_path: Path) -> None:
+    # template_code.py must be what Jinja2 makes of report.html.j2 today; else the report falls
+    # back to compiling it at run time (the same page, slower).
+    import jinja2
+
+    from sdmnet.output import report
+    from sdmnet.output.report import template_code
+
+    if jinja2.__version__ != template_code.JINJA2_VERSION:
+        pytest.skip(f"compiled by Jinja2 {template_code.JINJA2_VERSION}, {jinja2.__version__} installed")
+    shipped = Path(template_code.__file__).read_text(encoding="utf-8")
+    assert shipped == report.template_code_text(), "run: python tools/compile_report_template.py"
+    assert report._template().render.__self__.root_render_func.__module__ == template_code.__name__
+
+
+def test_the_compiled_template_and_the_template_give_the_same_page(reported: Path) -> None:
+    from sdmnet.output import report
+    from sdmnet.output.report.results import read_results
+    from sdmnet.output.report.sections import build_sections
+
+    res = read_results(reported)
+    values = {
+        "name": res.scenario().get("name") or res.path.name,
+        "files_read": res.files_read(),
+        "cautions": CAUTIONS,
+        "sections": build_sections(res),
+    }
+    from_source = report._environment().from_string(report._template_source())
+    assert report._template().render(**values) == from_source.render(**values)
+
+
 # --- contents ------------------------------------------------------------------------------------
 
 

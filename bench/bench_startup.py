@@ -9,8 +9,12 @@ best and the median of R fresh processes:
   replications of 1,000 requests at each of its 3 loads), and its fixed overhead: the wall time
   less the engine's own time for the same tasks, measured in this process (target: 1.5 s);
 - where the time of one ``simulate`` goes, in one process: imports, loading, the sweep, tables,
-  the report (figures included);
+  the report (figures included), and how long the command takes to end once its work is done;
 - which heavy libraries each light command imports (none is the aim).
+
+When ``PYTHONDONTWRITEBYTECODE`` is set, every process compiles sdmnet's own modules from source
+(about 0.1 s of a tiny ``simulate``), which an installed copy does not; ``--bytecode`` also
+measures ``simulate`` with compiled modules cached (in a temporary ``PYTHONPYCACHEPREFIX``).
 
 Figures only, no assertion: timings depend on the machine and on what else runs on it.
 """
@@ -19,6 +23,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import resource
 import statistics
 import subprocess
@@ -35,14 +40,14 @@ TINY_OPTIONS = ["--requests", "1000", "--replications", "2"]
 HEAVY = ("pandas", "matplotlib", "scipy", "pyarrow", "networkx", "dask", "distributed", "simpy", "numpy", "jinja2")
 
 
-def wall(args: list[str], repeats: int) -> list[tuple[float, float]]:
+def wall(args: list[str], repeats: int, env: dict[str, str] | None = None) -> list[tuple[float, float]]:
     """(wall, CPU) seconds of ``repeats`` fresh processes; CPU time (user + system) moves less
     than wall time when other work shares the machine."""
     times = []
     for _ in range(repeats):
         before = resource.getrusage(resource.RUSAGE_CHILDREN)
         started = time.perf_counter()
-        subprocess.run(args, check=True, capture_output=True, cwd=ROOT)
+        subprocess.run(args, check=True, capture_output=True, cwd=ROOT, env=env)
         elapsed = time.perf_counter() - started
         after = resource.getrusage(resource.RUSAGE_CHILDREN)
         times.append((elapsed, after.ru_utime - before.ru_utime + after.ru_stime - before.ru_stime))
@@ -107,9 +112,34 @@ print(t1 - t0, t2 - t1, t3 - t2, t4 - t3)
     print(f"  report (figures drawn, page)        {report:6.3f} s")
 
 
+def ending(repeats: int) -> float:
+    """Seconds from the end of the command's work (``main`` returning) to the process's end, as
+    the installed command (``sdmnet.cli.run``) ends it; the best of ``repeats``."""
+    code = f"""
+import sys, time
+import sdmnet.cli as cli
+work = cli.main
+def timed(argv=None):
+    status = work(argv)
+    sys.stderr.write(repr(time.time()))
+    return status
+cli.main = timed
+sys.argv = ["sdmnet", "simulate", {str(TINY)!r}, *{TINY_OPTIONS!r}, "--quiet", "-o", sys.argv[1]]
+cli.run()
+"""
+    best = float("inf")
+    for _ in range(repeats):
+        with tempfile.TemporaryDirectory() as out:
+            run = [sys.executable, "-c", code, out]
+            done = subprocess.run(run, check=True, capture_output=True, text=True, cwd=ROOT)
+            best = min(best, time.time() - float(done.stderr.strip().splitlines()[-1]))
+    return best
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--repeats", type=int, default=5)
+    parser.add_argument("--bytecode", action="store_true", help="also simulate with compiled modules cached")
     args = parser.parse_args()
     r = args.repeats
     line("python -c pass (the interpreter alone)", wall([sys.executable, "-c", "pass"], r))
@@ -122,8 +152,19 @@ def main() -> None:
     line("sdmnet simulate (tiny scenario, report included)", simulate)
     line("  of which fixed overhead (less the engine)", [(w - engine, c - engine) for w, c in simulate], 1.5)
     print(f"  engine alone for the same 6 tasks     {engine:6.3f} s")
+    if args.bytecode:
+        with tempfile.TemporaryDirectory() as cache, tempfile.TemporaryDirectory() as out:
+            env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+            env["PYTHONPYCACHEPREFIX"] = cache
+            run = [*SDMNET, "simulate", str(TINY), *TINY_OPTIONS, "--quiet", "-o", out]
+            wall(run, 1, env)  # compiles every module into the cache
+            cached = wall(run, r, env)
+        line("  the same with compiled modules cached", [(w - engine, c - engine) for w, c in cached], 1.5)
+    elif sys.flags.dont_write_bytecode:
+        print("  note: PYTHONDONTWRITEBYTECODE is set: sdmnet's modules are compiled in every process (--bytecode)")
     print("one simulate, stage by stage:")
     stages()
+    print(f"  the command's end after its work    {ending(r):6.3f} s")
     print("heavy libraries imported:")
     for what, code in (
         ("sdmnet --help", "import sdmnet.cli as c\ntry:\n    c.main(['--help'])\nexcept SystemExit:\n    pass"),

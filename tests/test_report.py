@@ -234,6 +234,26 @@ def test_the_compiled_template_and_the_template_give_the_same_page(reported: Pat
     assert report._template().render(**values) == from_source.render(**values)
 
 
+def test_drawing_runs_without_the_cyclic_collector_which_is_then_restored(simulated: Path, tmp_path: Path,
+                                                                           monkeypatch) -> None:  # fmt: skip
+    import gc
+
+    from sdmnet.output import report
+
+    seen = []
+    render = report.render
+    monkeypatch.setattr(report, "render", lambda res: seen.append(gc.isenabled()) or render(res))
+    assert gc.isenabled()
+    write_report(copy_of(simulated, tmp_path))
+    assert seen == [False] and gc.isenabled()
+    gc.disable()
+    try:
+        write_report(copy_of(simulated, tmp_path, "again"))
+        assert not gc.isenabled(), "a collector the caller had switched off stays off"
+    finally:
+        gc.enable()
+
+
 # --- contents ------------------------------------------------------------------------------------
 
 

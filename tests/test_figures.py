@@ -7,6 +7,7 @@ import zlib
 from pathlib import Path
 
 import matplotlib.pyplot as plt
+import numpy as np
 import pandas as pd
 import pytest
 
@@ -156,6 +157,24 @@ def test_each_figure_is_a_stable_png_without_varying_metadata(name: str, tmp_pat
     assert b"Software" not in texts and b"Creation Time" not in texts
     width, height = struct.unpack(">II", chunks[0][1][:8])
     assert width > 300 and height > 200
+
+
+def test_png_bytes_decode_to_the_same_pixels_at_the_stated_resolution(tmp_path: Path) -> None:
+    from PIL import Image
+
+    from sdmnet.output.figures.look import png_bytes
+
+    rng = np.random.default_rng(7)
+    rgb = rng.integers(0, 256, size=(5, 7, 3), dtype=np.uint8)
+    rgb[2] = 255  # a white row, as most of a figure is
+    path = tmp_path / "x.png"
+    path.write_bytes(png_bytes(rgb, 120))
+    with Image.open(path) as image:
+        assert image.mode == "RGB" and image.size == (7, 5)
+        assert np.array_equal(np.asarray(image), rgb)
+        assert image.info["dpi"] == pytest.approx((120, 120), abs=0.05)  # whole pixels per metre
+    with pytest.raises(ValueError, match="8-bit RGB"):
+        png_bytes(np.zeros((2, 2, 4), dtype=np.uint8), 120)
 
 
 def test_a_users_rc_settings_do_not_change_the_figure(tmp_path: Path) -> None:

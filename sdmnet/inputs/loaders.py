@@ -44,7 +44,6 @@ import re
 import types
 import typing
 import warnings
-import xml.etree.ElementTree as ET
 from collections.abc import Callable, Iterable, Mapping
 from dataclasses import MISSING, dataclass, fields
 from pathlib import Path
@@ -785,6 +784,8 @@ def _raw_topology_from_graphml(doc: _Doc, data: bytes) -> _RawTopology:
     # Parse once ourselves: for the position of XML errors, and for the edge order and
     # orientation of the document (networkx reports edges grouped by node, and cable order and
     # the a/b orientation show in every report).
+    import xml.etree.ElementTree as ET  # only GraphML needs an XML parser
+
     try:
         root = ET.fromstring(data)
     except ET.ParseError as err:

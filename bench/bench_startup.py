@@ -112,6 +112,17 @@ print(t1 - t0, t2 - t1, t3 - t2, t4 - t3)
     print(f"  report (figures drawn, page)        {report:6.3f} s")
 
 
+def instructions() -> int:
+    """Instructions of one tiny ``simulate``, the whole process, counted by callgrind."""
+    with tempfile.TemporaryDirectory() as work:
+        out, log = Path(work) / "out", Path(work) / "callgrind.out"
+        run = ["valgrind", "--tool=callgrind", f"--callgrind-out-file={log}", *SDMNET, "simulate", str(TINY),
+               *TINY_OPTIONS, "--quiet", "-o", str(out)]  # fmt: skip
+        done = subprocess.run(run, check=True, capture_output=True, text=True, cwd=ROOT)
+    found = [ln for ln in done.stderr.splitlines() if "Collected :" in ln]
+    return int(found[-1].split(":")[-1].replace(",", "").strip())
+
+
 def ending(repeats: int) -> float:
     """Seconds from the end of the command's work (``main`` returning) to the process's end, as
     the installed command (``sdmnet.cli.run``) ends it; the best of ``repeats``."""
@@ -140,6 +151,7 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--repeats", type=int, default=5)
     parser.add_argument("--bytecode", action="store_true", help="also simulate with compiled modules cached")
+    parser.add_argument("--instructions", action="store_true", help="count one tiny simulate's instructions")
     args = parser.parse_args()
     r = args.repeats
     line("python -c pass (the interpreter alone)", wall([sys.executable, "-c", "pass"], r))
@@ -165,6 +177,8 @@ def main() -> None:
     print("one simulate, stage by stage:")
     stages()
     print(f"  the command's end after its work    {ending(r):6.3f} s")
+    if args.instructions:
+        print(f"instructions of one tiny simulate (callgrind, whole process): {instructions() / 1e9:.3f} G")
     print("heavy libraries imported:")
     for what, code in (
         ("sdmnet --help", "import sdmnet.cli as c\ntry:\n    c.main(['--help'])\nexcept SystemExit:\n    pass"),

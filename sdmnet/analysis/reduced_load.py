@@ -54,6 +54,7 @@ from itertools import combinations
 import numpy as np
 
 from .analytic import _blocking_from_log, _occupancy_log
+from .link_pair import PairArrival, calls_given_occupancy, pair_law
 from .overflow import bpp_link_blocking, overflow_peakedness, thinned_peakedness
 
 __all__ = ["RouteOption", "RoutedStream", "RoutedResult", "routed_fixed_point"]
@@ -597,6 +598,132 @@ def _first_entry(pairs: _SharedPairs) -> np.ndarray:
     return first
 
 
+#: The joint chain (:mod:`sdmnet.analysis.link_pair`) replaces the product form of a pair of
+#: links where the calls that cross both carry at least this share of each link's traffic (in
+#: units): the pair is then dominated by the same calls (common practice, no source: a majority).
+JOINT_PAIR_SHARE = 0.5
+#: Joint chains solved per load point hold at most this many states in all ((C_l + 1)(C_m + 1)
+#: each), the pairs whose links block most first: a chain of two 112-unit links (12,769 states)
+#: takes about 0.05 s a solve (docs/estimate.md, "What it costs").
+JOINT_PAIR_STATES = 20_000
+_JOINT_TOL = 1e-4  # largest change of a log factor between two rounds that counts as settled
+_JOINT_ROUNDS = 20  # rounds of joint chains at most (then the last factors stand)
+_JOINT_REFRESH = 1e-6  # the chains are solved again once the link blocking changes less than this
+
+
+class _JointPairs:
+    """The pairs of links whose shared-call factor comes from their joint chain, and that chain's
+    arrivals, departures and laws (warm-started from the previous round)."""
+
+    def __init__(self, pairs: _SharedPairs, terms: _Terms, options: list, capacities: np.ndarray,
+                 sizes: np.ndarray, size_of: dict[int, int]) -> None:  # fmt: skip
+        self.pairs, self.terms, self.options, self.caps, self.sizes = pairs, terms, options, capacities, sizes
+        self.size_of = size_of
+        first = _first_entry(pairs) if pairs.n_pairs else np.zeros(0, dtype=np.int64)
+        self.first_link, self.second_link = pairs.first[first], pairs.second[first]
+        self.units_on = [dict(zip(opt.links, opt.units)) for _s, _r, opt in options]
+        self.need: dict[tuple[int, int], int] = {}
+        for (s, _r, _opt), held in zip(options, self.units_on):
+            for ell, u in held.items():
+                self.need[(s, ell)] = max(self.need.get((s, ell), 0), u)
+        self.term_starts = np.flatnonzero(np.r_[True, terms.stream[1:] != terms.stream[:-1]])
+        self.terms_of = [np.flatnonzero(terms.term_option == o) for o in range(len(options))]
+        self.selected: list[int] | None = None
+        self.laws: dict[tuple[int, int], np.ndarray] = {}
+        self.rounds = 0
+
+    def _select(self, blocking: np.ndarray, traffic: np.ndarray) -> list[int]:
+        """Pairs dominated by the calls crossing both, the most blocking first, within the budget."""
+        on_link: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+        for o, held in enumerate(self.units_on):
+            for ell, u in held.items():
+                on_link.setdefault(ell, ([], []))
+                on_link[ell][0].append(o)
+                on_link[ell][1].append(u)
+        on_link = {ell: (np.array(os_), np.array(us, dtype=float)) for ell, (os_, us) in on_link.items()}
+        candidates = []
+        for q, (ell, m) in enumerate(zip(self.first_link.tolist(), self.second_link.tolist())):
+            strength = np.minimum(blocking[:, ell].max(axis=1), blocking[:, m].max(axis=1))
+            if not (strength > 1e-9).any():
+                continue
+            dominated = np.ones(traffic.shape[0], dtype=bool)
+            for a, b in ((ell, m), (m, ell)):
+                crossing, units = on_link[a]
+                also = np.array([b in self.units_on[o] for o in crossing.tolist()])
+                total = traffic[:, crossing] @ units
+                dominated &= traffic[:, crossing[also]] @ units[also] >= JOINT_PAIR_SHARE * np.maximum(total, 1e-300)
+            if (dominated & (strength > 1e-9)).any():
+                candidates.append((-float(strength.max()), q))
+        chosen, states = [], 0
+        for _key, q in sorted(candidates):
+            size = int(self.caps[self.first_link[q]] + 1) * int(self.caps[self.second_link[q]] + 1)
+            if states + size <= JOINT_PAIR_STATES:
+                chosen.append(q)
+                states += size
+        return chosen
+
+    def kappa(self, blocking: np.ndarray, link_loads: np.ndarray, carried: np.ndarray, stream_load: np.ndarray,
+              survive: np.ndarray, route_factor: np.ndarray) -> np.ndarray | None:  # fmt: skip
+        """(P, N): each chosen pair's entries' factor ``P(both have room) / (P(l) P(m))`` within
+        its joint chain (NaN elsewhere); None when no pair is chosen."""
+        traffic = carried * stream_load
+        if self.selected is None:
+            self.selected = self._select(blocking, traffic)
+        if not self.selected:
+            return None
+        self.rounds += 1
+        pairs, sizes = self.pairs, self.sizes
+        out = np.full((blocking.shape[0], pairs.first.size), np.nan)
+        for q in self.selected:
+            ell, m = int(self.first_link[q]), int(self.second_link[q])
+            entries = np.flatnonzero(pairs.entry_pair == q)
+            touching = [o for o, held in enumerate(self.units_on) if ell in held or m in held]
+            joint = [o for o in touching if ell in self.units_on[o] and m in self.units_on[o]]
+            has_l = np.zeros(self.terms.sign.size, dtype=bool)
+            has_m = np.zeros_like(has_l)
+            has_l[self.terms.stream[self.terms.link == ell]] = True
+            has_m[self.terms.stream[self.terms.link == m]] = True
+            elsewhere = (self.terms.link != ell) & (self.terms.link != m)
+            for p in range(blocking.shape[0]):
+                if blocking[p, ell].max() <= 1e-9 or blocking[p, m].max() <= 1e-9:
+                    continue
+                rest = np.multiply.reduceat(np.where(elsewhere, survive[p], 1.0), self.term_starts)
+                weight = self.terms.sign * route_factor[p] * rest
+                arrivals = []
+                for o in touching:
+                    ts = self.terms_of[o]
+                    rates = np.array([[weight[ts][(~has_l[ts] | (a == 1)) & (~has_m[ts] | (b == 1))].sum()
+                                       for b in (0, 1)] for a in (0, 1)])  # fmt: skip
+                    s, held = self.options[o][0], self.units_on[o]
+                    arrivals.append(PairArrival((held.get(ell, 0), held.get(m, 0)),
+                                                (self.need.get((s, ell), 0), self.need.get((s, m), 0)),
+                                                stream_load[p, o] * np.clip(rates, 0.0, None)))  # fmt: skip
+                shared = np.zeros((2, sizes.size))
+                for side, a in enumerate((ell, m)):
+                    for k, u in enumerate(sizes.tolist()):
+                        total = sum(traffic[p, o] for o in touching if self.units_on[o].get(a) == u)
+                        both = sum(traffic[p, o] for o in joint if self.units_on[o].get(a) == u)
+                        shared[side, k] = both / total if total > 0 else 0.0
+                cap_l, cap_m = int(self.caps[ell]), int(self.caps[m])
+                start = self.laws.get((q, p))
+                if start is None:
+                    laws = _normalised_laws(np.array([cap_l, cap_m], dtype=np.int64), sizes, link_loads[p, [ell, m]])
+                    start = np.outer(laws[0, : cap_l + 1], laws[1, : cap_m + 1])
+                calls = (calls_given_occupancy(cap_l, sizes, link_loads[p, ell]),
+                         calls_given_occupancy(cap_m, sizes, link_loads[p, m]))  # fmt: skip
+                law = pair_law((cap_l, cap_m), sizes, arrivals, calls, shared, start)
+                self.laws[(q, p)] = law
+                cdf = law.cumsum(axis=0).cumsum(axis=1)
+                for e in entries:
+                    b = int(sizes[pairs.size_index[e]])
+                    if b > min(cap_l, cap_m):
+                        continue
+                    both, room_l, room_m = cdf[cap_l - b, cap_m - b], cdf[cap_l - b, cap_m], cdf[cap_l, cap_m - b]
+                    if room_l > 0 and room_m > 0 and both > 0:
+                        out[p, e] = float(np.clip(both / (room_l * room_m), 1e-3, 1e3))
+        return out
+
+
 def routed_fixed_point(
     capacities: Sequence[int],
     streams: Sequence[RoutedStream],
@@ -607,6 +734,7 @@ def routed_fixed_point(
     max_iter: int = 2000,
     peakedness: bool = True,
     shared_calls: bool = True,
+    joint_pairs: bool = True,
 ) -> RoutedResult:
     """Reduced-load fixed point with routes tried in order and channel continuity.
 
@@ -633,6 +761,12 @@ def routed_fixed_point(
         Where a later route is weighed against the refusal of earlier ones, count two links
         that the same calls cross as busy together (:func:`_pair_correlation`); False takes
         every link as independent.  Without alternate routes there is no difference.
+    joint_pairs : bool
+        Where the calls that cross two links of such a pair carry at least half of each link's
+        traffic, take the pair's factor from the two links' joint chain
+        (:mod:`sdmnet.analysis.link_pair`) instead of the product form, once the fixed point has
+        converged, and iterate until those factors settle (at most :data:`JOINT_PAIR_STATES`
+        chain states per point).  Needs ``shared_calls``.
 
     Returns
     -------
@@ -771,9 +905,9 @@ def routed_fixed_point(
         weighted = _add_at(prev_option_a, block * z_parcel, len(options))
         return np.where(weight > 0, np.divide(weighted, weight, out=np.ones_like(weight), where=weight > 0), 1.0)
 
-    def step(blocking: np.ndarray, call_blocking: np.ndarray, occupancy: np.ndarray, carried: np.ndarray,
-             z_option: np.ndarray, link_loads_now: np.ndarray
-             ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:  # fmt: skip
+    def term_parts(blocking: np.ndarray, call_blocking: np.ndarray, occupancy: np.ndarray, carried: np.ndarray
+                   ) -> tuple[np.ndarray, np.ndarray]:  # fmt: skip
+        """Each term-link's room (P, I) and each term's continuity factor (P, T)."""
         survive = 1.0 - blocking[:, terms.link, terms.size_index]
         if peaked_terms:
             survive = np.where(terms.peaked[None, :], 1.0 - call_blocking[:, terms.link, terms.size_index], survive)
@@ -782,9 +916,22 @@ def routed_fixed_point(
         factor = _continuity(option_hops, len(options), occupancy, caps, aligned)  # (P, O)
         route_factor = np.ones((n_points, n_terms))
         _reduce_at(np.multiply, route_factor, terms.factor_term, factor[:, terms.factor_option])
+        return survive, route_factor
+
+    joint_kappa: np.ndarray | None = None  # (P, N): the joint chain's factor per entry, NaN where not solved
+    joint = (_JointPairs(pairs, terms, options, caps, sizes, size_of) if joint_pairs and pairs is not None
+             and pairs.term.size else None)  # fmt: skip
+    settled = joint is None
+
+    def step(blocking: np.ndarray, call_blocking: np.ndarray, occupancy: np.ndarray, carried: np.ndarray,
+             z_option: np.ndarray, link_loads_now: np.ndarray
+             ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:  # fmt: skip
+        survive, route_factor = term_parts(blocking, call_blocking, occupancy, carried)
         if pairs is not None and pairs.term.size:
             # Links that the same calls cross are busy together (docs/estimate.md, step 2).
             kappa = _pair_correlation(pairs, blocking, link_loads_now, carried * stream_load, caps, sizes)
+            if joint_kappa is not None:
+                kappa = np.where(np.isnan(joint_kappa), kappa, joint_kappa)
             _reduce_at(np.multiply, route_factor, pairs.term, kappa[:, pairs.entry])
         others, whole = _exclusive(survive, layout, n_terms)
         thinned = offered_hop * others * route_factor[:, terms.stream]
@@ -821,17 +968,36 @@ def routed_fixed_point(
     link_loads, peaked_loads, variances, carried_option = step(
         blocking, call_blocking, occupancy, np.zeros((n_points, len(options))), no_overflow, zero)
     iterations, converged, residual, previous, weight = 0, False, 0.0, np.inf, damping
+    carried_damped = carried_option
     for iterations in range(1, max_iter + 1):  # noqa: B007 - the count is returned
         new_blocking, call_blocking, occupancy = link_state(link_loads, peaked_loads, variances, call_blocking)
         residual = float(np.abs(new_blocking - blocking).max()) if blocking.size else 0.0
         blocking = new_blocking
         z_option = (option_peakedness(blocking, link_loads + peaked_loads, carried_option) if peaked_terms
                     else no_overflow)  # fmt: skip
+        refreshed = False
+        if residual < max(tol, _JOINT_REFRESH) and not settled:
+            # Near the fixed point with the factors in hand: solve the joint chains of the pairs
+            # of links that the same calls dominate at this state, and go on until they settle.
+            # The carried shares damped like the loads (the undamped map oscillates at high load).
+            survive, route_factor = term_parts(blocking, call_blocking, occupancy, carried_damped)
+            fresh = joint.kappa(blocking, link_loads + peaked_loads, carried_damped, stream_load, survive,
+                                route_factor)  # fmt: skip
+            if fresh is None:
+                settled = True
+            else:
+                change = np.inf if joint_kappa is None else float(np.nanmax(np.abs(np.log(fresh / joint_kappa)),
+                                                                            initial=0.0))  # fmt: skip
+                joint_kappa = fresh
+                settled = change < _JOINT_TOL or joint.rounds >= _JOINT_ROUNDS
+                refreshed = not settled
         new_loads, new_peaked, new_var, carried_option = step(blocking, call_blocking, occupancy, carried_option,
                                                               z_option, link_loads + peaked_loads)  # fmt: skip
-        if residual < tol:
+        if residual < tol and settled and not refreshed:
             converged = True
             break
+        if refreshed:
+            previous = np.inf  # the new factors move the loads: not a failure of the damping
         # Damp harder each time a step fails to shrink the change by a tenth (alternate routing
         # makes the plain map oscillate at high load).
         if iterations > 1 and residual > 0.9 * previous:
@@ -840,6 +1006,7 @@ def routed_fixed_point(
         link_loads = weight * link_loads + (1.0 - weight) * new_loads
         peaked_loads = weight * peaked_loads + (1.0 - weight) * new_peaked
         variances = weight * variances + (1.0 - weight) * new_var
+        carried_damped = weight * carried_damped + (1.0 - weight) * carried_option
     carried = np.zeros((n_points, n_streams, max_options))
     for o, (s, r, _opt) in enumerate(options):
         carried[:, s, r] = carried_option[:, o]

@@ -48,7 +48,8 @@ def explain_gap(setup: EngineSetup, estimate: float, low: float, high: float, me
         direction = "estimate below the interval"
         if alternates and not plain:
             reasons.append("overflow between routes approximated (peakedness by two moments, Poisson under grooming; "
-                           "cables correlated only pairwise: low where all routes of a pair fill together)")
+                           "cables correlated only pairwise, jointly only where the same calls dominate both: "
+                           "low where all routes of a pair fill together)")
         if multi_hop and not setup.whole_fiber and plain:
             reasons.append("no channel continuity (the plain fixed point takes any free units on each hop)")
         if arch.share and not setup.whole_fiber and plain:

@@ -30,6 +30,12 @@ Model (docs/estimate.md, "The routed estimate"):
   (:func:`_pair_correlation`); neighbours only along one route, so that a chain of factors
   does not count one stream's dependence many times.  A stream with one route keeps the plain
   fixed point.
+* **Joint chains.**  Where the calls that cross both links of such a pair carry at least half of
+  each link's traffic (the access cables of a site without transit, loaded by one heavy pair
+  whose later routes keep loading each cable while the other is full), the pair's factor comes
+  from the two links' joint Markov chain (:mod:`sdmnet.analysis.link_pair`) instead of the
+  product form, which undercounts it there (fixed routing stops the shared calls while either
+  link is full; alternate routing does not).
 * **Channel continuity.** A route of several hops also needs its units on *common* slots: a
   slot is a channel (lane change) or a channel and core group (no lane change); on hop h a slot
   has ``positions[h]`` unit positions (fiber pairs x core groups, or fiber pairs).  Given that

@@ -170,6 +170,19 @@ def test_alternate_routing_on_a_triangle_against_the_exact_chain(capacity, load,
     assert abs(np.log(new / exact)) <= abs(np.log(direct_only / exact)) + 1e-3
 
 
+def _departures(s: tuple):
+    """Unit holding times: each of ``n`` calls in progress of a kind ends at rate 1."""
+    for i, n in enumerate(s):
+        if n:
+            yield s[:i] + (n - 1,) + s[i + 1 :], float(n)
+
+
+def _refused_share(states: list, moves, route_for) -> float:
+    """Stationary probability of the states where ``route_for`` finds no route (PASTA: blocking)."""
+    pi = stationary(states, moves)
+    return float(sum(p for s, p in zip(states, pi) if route_for(s) is None))
+
+
 def _shared_first_link(capacity: int, loads: tuple[float, float, float]) -> float:
     """Exact blocking of a pair that tries links (0, 1), then (0, 2), beside local streams on
     links 1 and 2 (one unit per call).  State: (pair calls on each route, local calls)."""
@@ -193,12 +206,9 @@ def _shared_first_link(capacity: int, loads: tuple[float, float, float]) -> floa
             yield (x1, x2, y + 1, z), loads[1]
         if x2 + z < capacity:
             yield (x1, x2, y, z + 1), loads[2]
-        for i, n in enumerate(s):
-            if n:
-                yield s[:i] + (n - 1,) + s[i + 1 :], float(n)
+        yield from _departures(s)
 
-    pi = stationary(states, moves)
-    return float(sum(p for s, p in zip(states, pi) if route_for(s) is None))
+    return _refused_share(states, moves, route_for)
 
 
 @pytest.mark.parametrize(
@@ -267,12 +277,9 @@ def _leaf_site(capacity: int, loads: tuple[float, float, float, float]) -> float
         for i, (link, load) in enumerate(((2, local_2), (1, local_1), (3, local_3))):
             if f[link]:
                 yield s[: 3 + i] + (s[3 + i] + 1,) + s[4 + i :], load
-        for i, n in enumerate(s):
-            if n:
-                yield s[:i] + (n - 1,) + s[i + 1 :], float(n)
+        yield from _departures(s)
 
-    pi = stationary(states, moves)
-    return float(sum(p for s, p in zip(states, pi) if route_for(s) is None))
+    return _refused_share(states, moves, route_for)
 
 
 @pytest.mark.parametrize(

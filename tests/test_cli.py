@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import json
 import os
 import signal
 import subprocess
@@ -286,3 +287,21 @@ def test_the_command_waits_for_a_thread_still_running(tmp_path):
     done = _command(tmp_path, thread, "check", str(_scenario(tmp_path)))
     assert done.returncode == 0
     assert done.stdout.splitlines()[-1] == "thread done"
+
+
+def _modules_after(code: str) -> set[str]:
+    """Top-level packages a fresh interpreter holds after running ``code``."""
+    probe = code + "\nimport json, sys\nprint(json.dumps(sorted(sys.modules)))"
+    done = subprocess.run([sys.executable, "-c", probe], check=True, capture_output=True, text=True)
+    return set(json.loads(done.stdout.splitlines()[-1]))
+
+
+def test_light_commands_and_simulate_import_only_what_they_use() -> None:
+    # Issue 16: heavy libraries are imported where they are used.  The command line alone
+    # (help, check) needs none of them; simulate and its report need neither scipy (a
+    # link-pair chain or a binomial tail imports it when it is solved) nor pyplot.
+    light = _modules_after("import sdmnet.cli")
+    assert not {"numpy", "pandas", "matplotlib", "scipy"} & {m.split(".")[0] for m in light}
+    full = _modules_after("import sdmnet.api, sdmnet.output.report")
+    assert "scipy" not in {m.split(".")[0] for m in full}
+    assert "matplotlib.pyplot" not in full

@@ -36,7 +36,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import sparse
 
 from .analytic import _occupancy_log
 
@@ -128,6 +127,8 @@ def pair_law(capacities: tuple[int, int], sizes: np.ndarray, arrivals: list[Pair
         move(both, -b, -b, joint)
     n = nx * ny
     s, d, r = np.concatenate(src), np.concatenate(dst), np.concatenate(rate)
+    from scipy import sparse  # here: only chains that are solved pay its import (about 50 ms)
+
     into = sparse.csr_matrix((r, (d, s)), shape=(n, n))
     out = np.bincount(s, weights=r, minlength=n)
     uniform = float(out.max()) * 1.01 if out.size and out.max() > 0 else 1.0

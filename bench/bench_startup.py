@@ -12,8 +12,9 @@ best and the median of R fresh processes:
   the report (figures included), and how long the command takes to end once its work is done;
 - which heavy libraries each light command imports (none is the aim).
 
-When ``PYTHONDONTWRITEBYTECODE`` is set, every process compiles sdmnet's own modules from source
-(about 0.1 s of a tiny ``simulate``), which an installed copy does not; ``--bytecode`` also
+When ``PYTHONDONTWRITEBYTECODE`` is set and sdmnet's modules are not compiled (``make bytecode``
+compiles them, and ``make demo``/``make test``/``make bench`` call it), every process compiles
+them from source (about 0.1 s of a tiny ``simulate``), which an installed copy does not; ``--bytecode`` also
 measures ``simulate`` with compiled modules cached (in a temporary ``PYTHONPYCACHEPREFIX``).
 
 Figures only, no assertion: timings depend on the machine and on what else runs on it.
@@ -52,6 +53,18 @@ def wall(args: list[str], repeats: int, env: dict[str, str] | None = None) -> li
         after = resource.getrusage(resource.RUSAGE_CHILDREN)
         times.append((elapsed, after.ru_utime - before.ru_utime + after.ru_stime - before.ru_stime))
     return times
+
+
+def sources_compiled() -> bool:
+    """Whether every sdmnet module has a compiled copy at least as new as its source (what
+    ``make bytecode`` and a non-editable install leave)."""
+    from importlib.util import cache_from_source
+
+    for source in (ROOT / "sdmnet").rglob("*.py"):
+        compiled = Path(cache_from_source(str(source)))
+        if not compiled.exists() or compiled.stat().st_mtime < source.stat().st_mtime:
+            return False
+    return True
 
 
 def line(what: str, times: list[tuple[float, float]], target: float | None = None) -> None:
@@ -172,8 +185,9 @@ def main() -> None:
             wall(run, 1, env)  # compiles every module into the cache
             cached = wall(run, r, env)
         line("  the same with compiled modules cached", [(w - engine, c - engine) for w, c in cached], 1.5)
-    elif sys.flags.dont_write_bytecode:
-        print("  note: PYTHONDONTWRITEBYTECODE is set: sdmnet's modules are compiled in every process (--bytecode)")
+    elif sys.flags.dont_write_bytecode and not sources_compiled():
+        print("  note: PYTHONDONTWRITEBYTECODE is set and sdmnet's modules are not compiled, so every process"
+              " compiles them (`make bytecode`, or --bytecode)")
     print("one simulate, stage by stage:")
     stages()
     print(f"  the command's end after its work    {ending(r):6.3f} s")

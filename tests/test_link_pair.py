@@ -14,6 +14,7 @@ import numpy as np
 import pytest
 from markov import stationary
 
+from sdmnet.analysis import link_pair
 from sdmnet.analysis.link_pair import PairArrival, calls_given_occupancy, pair_law
 
 
@@ -46,8 +47,12 @@ def test_one_stream_over_both_links_is_kaufman_roberts(capacity, loads):
     assert law.sum() - np.trace(law) < 1e-9
 
 
-def test_two_links_without_shared_calls_are_independent():
-    # A Poisson stream on each link and nothing over both: the product of two Erlang laws.
+@pytest.mark.parametrize("solver", ["direct", "iterative"])
+def test_two_links_without_shared_calls_are_independent(solver, monkeypatch):
+    # A Poisson stream on each link and nothing over both: the product of two Erlang laws,
+    # by either solver (the iterative one is forced by lowering the direct solver's size).
+    if solver == "iterative":
+        monkeypatch.setattr(link_pair, "DIRECT_STATES", 0)
     sizes = np.array([1])
     arrivals = [_only_arrival((1, 0), 3.0), _only_arrival((0, 1), 1.5)]
     calls = (calls_given_occupancy(5, sizes, np.array([3.0])), calls_given_occupancy(4, sizes, np.array([1.5])))
@@ -106,3 +111,16 @@ def test_alternate_routes_that_keep_both_links_loaded_against_the_exact_chain():
     np.testing.assert_allclose(law.sum(axis=1), exact.sum(axis=1), atol=1e-9)
     assert both_full == pytest.approx(exact[c, c], rel=0.15)
     assert exact[c, :].sum() * exact[:, c].sum() < 0.3 * exact[c, c]
+
+
+def test_an_overloaded_chain_is_solved_exactly_or_left_to_the_product_form(monkeypatch):
+    # One stream of a million Erlang over both links of 4 units: Erlang's law on the diagonal,
+    # almost all of it at 4 busy units.  The uniformised iteration cannot settle there (each
+    # step moves a millionth of the mass down), so it must give up rather than run on.
+    capacity, load, sizes = 4, 1e6, np.array([1])
+    arrivals = [_only_arrival((1, 1), load)]
+    calls = calls_given_occupancy(capacity, sizes, np.array([load]))
+    law = pair_law((capacity, capacity), sizes, arrivals, (calls, calls), np.ones((2, 1)))
+    np.testing.assert_allclose(np.diag(law), _kr_law(capacity, [load], [1]), rtol=1e-9, atol=1e-15)
+    monkeypatch.setattr(link_pair, "DIRECT_STATES", 0)
+    assert pair_law((capacity, capacity), sizes, arrivals, (calls, calls), np.ones((2, 1)), max_steps=2000) is None

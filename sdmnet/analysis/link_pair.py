@@ -21,8 +21,9 @@ of such calls at that occupancy on a Kaufman-Roberts link with the link's fixed-
 share of them that also hold the other link (the calls' share of the link's carried traffic)
 leaves both links at once.  With one stream on one route over both links the chain stays on
 the diagonal and is Erlang's (Kaufman-Roberts') system exactly; with no calls over both it is
-two links coupled only through the routing.  The stationary law is found by uniformised power
-iteration from a start (the product of the two links' laws, or the previous law).
+two links coupled only through the routing.  The stationary law is found by sparse LU for
+small chains and by uniformised power iteration from a start (the product of the two links'
+laws, or the previous law) for larger ones.
 
 This is the two-link decomposition of a loss network: the chain is solved for a pair of links
 only, the rest of the network entering through the fixed point's link rooms (the reduced-load
@@ -40,6 +41,10 @@ import numpy as np
 from .analytic import _occupancy_log
 
 __all__ = ["PairArrival", "pair_law", "calls_given_occupancy"]
+
+#: Chains up to this many states are solved by sparse LU (exact, a few milliseconds at this size,
+#: and immune to the slow mixing of a heavily overloaded chain); larger ones iteratively.
+DIRECT_STATES = 2_500
 
 
 @dataclass(frozen=True)
@@ -76,8 +81,15 @@ def calls_given_occupancy(capacity: int, sizes: np.ndarray, loads: np.ndarray) -
 
 def pair_law(capacities: tuple[int, int], sizes: np.ndarray, arrivals: list[PairArrival],
              calls: tuple[np.ndarray, np.ndarray], shared: np.ndarray, start: np.ndarray | None = None, *,
-             tol: float = 1e-9, max_steps: int = 100_000) -> np.ndarray:  # fmt: skip
-    """Stationary law of the two links' busy units, shape (C_l + 1, C_m + 1).
+             tol: float = 1e-9, max_steps: int = 20_000) -> np.ndarray | None:  # fmt: skip
+    """Stationary law of the two links' busy units, shape (C_l + 1, C_m + 1), or None when the
+    iteration does not settle within ``max_steps``.
+
+    Chains of at most ``DIRECT_STATES`` states are solved directly (sparse LU); larger ones by
+    uniformised power iteration from ``start``, which settles in a few hundred steps at the
+    loads a plan is made for.  Under extreme overload (arrival rates many orders above the
+    departure rates) the uniformised chain moves too slowly to settle, so it gives up and the
+    caller keeps the product form.
 
     Parameters
     ----------
@@ -98,7 +110,7 @@ def pair_law(capacities: tuple[int, int], sizes: np.ndarray, arrivals: list[Pair
     tol : float
         Stop when one step of 25 changes the law by less than this (sum of absolute changes).
     max_steps : int
-        Uniformised steps at most.
+        Uniformised steps at most (larger chains only).
     """
     cap_l, cap_m = capacities
     nx, ny = cap_l + 1, cap_m + 1
@@ -129,8 +141,10 @@ def pair_law(capacities: tuple[int, int], sizes: np.ndarray, arrivals: list[Pair
     s, d, r = np.concatenate(src), np.concatenate(dst), np.concatenate(rate)
     from scipy import sparse  # here: only chains that are solved pay its import (about 50 ms)
 
-    into = sparse.csr_matrix((r, (d, s)), shape=(n, n))
     out = np.bincount(s, weights=r, minlength=n)
+    if n <= DIRECT_STATES:
+        return _solved_directly(sparse, n, s, d, r, out).reshape(nx, ny)
+    into = sparse.csr_matrix((r, (d, s)), shape=(n, n))
     uniform = float(out.max()) * 1.01 if out.size and out.max() > 0 else 1.0
     into = into / uniform
     keep = 1.0 - out / uniform
@@ -138,8 +152,23 @@ def pair_law(capacities: tuple[int, int], sizes: np.ndarray, arrivals: list[Pair
     for step in range(max_steps):
         new = keep * law + into @ law
         if step % 25 == 0 and np.abs(new - law).sum() < tol:
-            law = new
-            break
+            law = np.maximum(new, 0.0)
+            return (law / law.sum()).reshape(nx, ny)
         law = new
-    law = np.maximum(law, 0.0)
-    return (law / law.sum()).reshape(nx, ny)
+    return None
+
+
+def _solved_directly(sparse, n: int, src: np.ndarray, dst: np.ndarray, rate: np.ndarray,
+                     out: np.ndarray) -> np.ndarray:  # fmt: skip
+    """pi Q = 0 with the last balance equation replaced by sum(pi) = 1, by sparse LU."""
+    from scipy.sparse.linalg import spsolve
+
+    keep = dst != n - 1
+    rows = np.concatenate([dst[keep], np.arange(n - 1), np.full(n, n - 1)])
+    cols = np.concatenate([src[keep], np.arange(n - 1), np.arange(n)])
+    values = np.concatenate([rate[keep], -out[: n - 1], np.ones(n)])
+    balance = sparse.csc_matrix((values, (rows, cols)), shape=(n, n))
+    rhs = np.zeros(n)
+    rhs[-1] = 1.0
+    law = np.maximum(spsolve(balance, rhs, permc_spec="MMD_AT_PLUS_A"), 0.0)
+    return law / law.sum()

@@ -718,6 +718,8 @@ class _JointPairs:
                 calls = (calls_given_occupancy(cap_l, sizes, link_loads[p, ell]),
                          calls_given_occupancy(cap_m, sizes, link_loads[p, m]))  # fmt: skip
                 law = pair_law((cap_l, cap_m), sizes, arrivals, calls, shared, start)
+                if law is None:  # an overloaded chain that does not settle keeps the product form
+                    continue
                 self.laws[(q, p)] = law
                 cdf = law.cumsum(axis=0).cumsum(axis=1)
                 for e in entries:

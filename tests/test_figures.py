@@ -319,3 +319,24 @@ def test_label_boxes_at_every_spot_are_the_measured_ones():
         real = label.get_window_extent(renderer)
         assert box == pytest.approx([real.x0, real.y0, real.x1, real.y1], abs=0.1), (ha, va)
     plt.close(fig)
+
+
+def test_layout_falls_back_to_matplotlibs_own_when_its_private_steps_change(tmp_path: Path, monkeypatch) -> None:
+    # MeasuredOnceLayout runs matplotlib's private layout steps; a matplotlib whose steps take
+    # other arguments must still give a laid-out figure, by matplotlib's own two passes.
+    from sdmnet.output.figures import look
+
+    tried = []
+
+    def changed_steps(self, fig, steps):
+        tried.append(fig)
+        raise TypeError("make_layout_margins() got an unexpected keyword argument")
+
+    monkeypatch.setattr(look.MeasuredOnceLayout, "_measured_once", changed_steps)
+    fallback = DRAWINGS["blocking"](tmp_path / "fallback.png").read_bytes()
+    assert len(tried) == 1
+    monkeypatch.undo()
+    once = DRAWINGS["blocking"](tmp_path / "once.png").read_bytes()
+    # The same figure either way (matplotlib's second pass moves things by a pixel at most).
+    assert png_chunks(fallback)[0] == png_chunks(once)[0]
+    assert abs(len(fallback) - len(once)) < 0.05 * len(once)

@@ -139,11 +139,11 @@ def pair_law(capacities: tuple[int, int], sizes: np.ndarray, arrivals: list[Pair
         move(both, -b, -b, joint)
     n = nx * ny
     s, d, r = np.concatenate(src), np.concatenate(dst), np.concatenate(rate)
-    from scipy import sparse  # here: only chains that are solved pay its import (about 50 ms)
-
     out = np.bincount(s, weights=r, minlength=n)
     if n <= DIRECT_STATES:
-        return _solved_directly(sparse, n, s, d, r, out).reshape(nx, ny)
+        return _solved_directly(n, s, d, r, out).reshape(nx, ny)
+    from scipy import sparse  # here, not at the top: a run without large chains skips its import (about 50 ms)
+
     into = sparse.csr_matrix((r, (d, s)), shape=(n, n))
     uniform = float(out.max()) * 1.01 if out.size and out.max() > 0 else 1.0
     into = into / uniform
@@ -158,9 +158,9 @@ def pair_law(capacities: tuple[int, int], sizes: np.ndarray, arrivals: list[Pair
     return None
 
 
-def _solved_directly(sparse, n: int, src: np.ndarray, dst: np.ndarray, rate: np.ndarray,
-                     out: np.ndarray) -> np.ndarray:  # fmt: skip
+def _solved_directly(n: int, src: np.ndarray, dst: np.ndarray, rate: np.ndarray, out: np.ndarray) -> np.ndarray:
     """pi Q = 0 with the last balance equation replaced by sum(pi) = 1, by sparse LU."""
+    from scipy import sparse
     from scipy.sparse.linalg import spsolve
 
     keep = dst != n - 1

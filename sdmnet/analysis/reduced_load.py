@@ -622,9 +622,8 @@ class _JointPairs:
     arrivals, departures and laws (warm-started from the previous round)."""
 
     def __init__(self, pairs: _SharedPairs, terms: _Terms, options: list, capacities: np.ndarray,
-                 sizes: np.ndarray, size_of: dict[int, int]) -> None:  # fmt: skip
+                 sizes: np.ndarray) -> None:  # fmt: skip
         self.pairs, self.terms, self.options, self.caps, self.sizes = pairs, terms, options, capacities, sizes
-        self.size_of = size_of
         first = _first_entry(pairs) if pairs.n_pairs else np.zeros(0, dtype=np.int64)
         self.first_link, self.second_link = pairs.first[first], pairs.second[first]
         self.units_on = [dict(zip(opt.links, opt.units)) for _s, _r, opt in options]
@@ -632,7 +631,6 @@ class _JointPairs:
         for (s, _r, _opt), held in zip(options, self.units_on):
             for ell, u in held.items():
                 self.need[(s, ell)] = max(self.need.get((s, ell), 0), u)
-        self.term_starts = np.flatnonzero(np.r_[True, terms.stream[1:] != terms.stream[:-1]])
         self.terms_of = [np.flatnonzero(terms.term_option == o) for o in range(len(options))]
         self.selected: list[int] | None = None
         self.laws: dict[tuple[int, int], np.ndarray] = {}
@@ -689,12 +687,14 @@ class _JointPairs:
             has_m = np.zeros_like(has_l)
             has_l[self.terms.stream[self.terms.link == ell]] = True
             has_m[self.terms.stream[self.terms.link == m]] = True
+            # Each term's room on its links other than these two, at every point.
+            rest = np.ones_like(route_factor)
             elsewhere = (self.terms.link != ell) & (self.terms.link != m)
+            _reduce_at(np.multiply, rest, self.terms.stream, np.where(elsewhere, survive, 1.0))
             for p in range(blocking.shape[0]):
                 if blocking[p, ell].max() <= 1e-9 or blocking[p, m].max() <= 1e-9:
                     continue
-                rest = np.multiply.reduceat(np.where(elsewhere, survive[p], 1.0), self.term_starts)
-                weight = self.terms.sign * route_factor[p] * rest
+                weight = self.terms.sign * route_factor[p] * rest[p]
                 arrivals = []
                 for o in touching:
                     ts = self.terms_of[o]
@@ -927,7 +927,7 @@ def routed_fixed_point(
         return survive, route_factor
 
     joint_kappa: np.ndarray | None = None  # (P, N): the joint chain's factor per entry, NaN where not solved
-    joint = (_JointPairs(pairs, terms, options, caps, sizes, size_of) if joint_pairs and pairs is not None
+    joint = (_JointPairs(pairs, terms, options, caps, sizes) if joint_pairs and pairs is not None
              and pairs.term.size else None)  # fmt: skip
     settled = joint is None
 

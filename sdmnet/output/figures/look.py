@@ -156,6 +156,14 @@ class MeasuredOnceLayout(ConstrainedLayoutEngine):
 
         if not all(hasattr(steps, name) for name in _LAYOUT_STEPS):
             return super().execute(fig)
+        try:
+            return self._measured_once(fig, steps)
+        except (TypeError, KeyError, AttributeError):
+            # A matplotlib whose private steps take other arguments: its own two passes, which
+            # lay every axes out afresh.
+            return super().execute(fig)
+
+    def _measured_once(self, fig: Figure, steps: Any) -> Any:
         width, height = fig.get_size_inches()
         w_pad, h_pad = self._params["w_pad"] / width, self._params["h_pad"] / height
         pads = {"h_pad": h_pad, "w_pad": w_pad, "hspace": self._params["hspace"], "wspace": self._params["wspace"]}
